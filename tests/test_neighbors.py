@@ -1,0 +1,84 @@
+"""The shared neighbour layer."""
+
+import numpy as np
+import pytest
+from sklearn.neighbors import NearestNeighbors
+
+from manireg.geometry.neighbors import clear_cache, collapse_duplicates, kneighbors
+
+
+def test_exact_matches_sklearn():
+    rng = np.random.default_rng(0)
+    X = rng.normal(size=(300, 6))
+    g = kneighbors(X, 7, method="exact")
+    # reference library: scikit-learn's NearestNeighbors, self removed
+    d, i = NearestNeighbors(n_neighbors=8).fit(X).kneighbors(X)
+    np.testing.assert_allclose(g.distances, d[:, 1:], rtol=1e-12)
+    np.testing.assert_array_equal(g.indices, i[:, 1:])
+    assert g.method == "exact" and g.n_duplicates == 0
+
+
+def test_duplicates_collapsed_and_reported():
+    rng = np.random.default_rng(1)
+    X = rng.normal(size=(100, 3))
+    Xd = np.vstack([X, X[:10], X[:2]])
+    with pytest.warns(UserWarning, match="collapsed 12 exact duplicate"):
+        g = kneighbors(Xd, 5)
+    assert g.n_duplicates == 12 and g.n_points == 100
+    assert g.distances.min() > 0
+    np.testing.assert_array_equal(g.points[g.inverse], Xd)
+
+
+def test_collapse_keeps_first_seen_order():
+    X = np.array([[2.0], [1.0], [2.0], [3.0]])
+    pts, inv, ndup = collapse_duplicates(X)
+    np.testing.assert_array_equal(pts[:, 0], [2.0, 1.0, 3.0])
+    np.testing.assert_array_equal(inv, [0, 1, 0, 2])
+    assert ndup == 1
+
+
+def test_single_repeated_point():
+    with pytest.raises(ValueError, match="all 5 rows of X are the same point"):
+        kneighbors(np.ones((5, 3)), 2)
+
+
+def test_too_few_points_for_k():
+    with pytest.raises(ValueError, match="20 neighbours were asked for but X has only 10 distinct"):
+        kneighbors(np.random.default_rng(0).normal(size=(10, 2)), 20)
+
+
+def test_nan_and_1d_input():
+    X = np.random.default_rng(0).normal(size=(10, 2))
+    X[3, 1] = np.nan
+    with pytest.raises(ValueError, match=r"1 non-finite value\(s\).*\(3, 1\)"):
+        kneighbors(X, 2)
+    with pytest.raises(ValueError, match="reshape"):
+        kneighbors(np.arange(10.0), 2)
+
+
+def test_cache_shares_one_query():
+    clear_cache()
+    X = np.random.default_rng(2).normal(size=(200, 4))
+    g20 = kneighbors(X, 20)
+    g5 = kneighbors(X, 5)
+    assert g5.points is g20.points  # served from the cached graph
+    np.testing.assert_array_equal(g5.distances, g20.distances[:, :5])
+
+
+def test_approximate_close_to_exact():
+    rng = np.random.default_rng(3)
+    X = rng.normal(size=(1500, 5))
+    ex = kneighbors(X, 10, method="exact")
+    ap = kneighbors(X, 10, method="approximate", random_state=0)
+    assert ap.method == "approximate"
+    # recall of the approximate graph against the exact one (common practice: > 0.9 for NN-descent here)
+    hits = np.mean([len(set(a) & set(b)) / 10 for a, b in zip(ap.indices, ex.indices)])
+    assert hits > 0.9
+
+
+def test_bad_k_and_method():
+    X = np.random.default_rng(0).normal(size=(10, 2))
+    with pytest.raises(ValueError, match="'k' parameter of kneighbors must be an int >= 1; got 0"):
+        kneighbors(X, 0)
+    with pytest.raises(ValueError, match="'method' parameter"):
+        kneighbors(X, 2, method="fast")
