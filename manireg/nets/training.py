@@ -1,0 +1,841 @@
+"""Batched training of many ReLU-network replicas at once, and a scikit-learn style regressor.
+
+:class:`BatchedTrainer` trains R replicas of one architecture together: the weights of layer l are one
+tensor of shape (R, fan_in, fan_out) and every layer is a single ``torch.baddbmm``. Each replica has its
+own data (its own n), its own initial weights and minibatch stream (private ``torch.Generator`` per
+replica), and its own early stopping. The loss is the sum over replicas of each replica's mean squared
+error, so the gradient a replica receives is exactly its own; Adam is elementwise, so stacking leaves the
+replicas independent. Training R replicas together therefore gives the same networks as training each
+alone with the same seed, up to float rounding.
+
+References
+----------
+.. [1] D. P. Kingma, J. Ba, "Adam: a method for stochastic optimization", ICLR 2015.
+.. [2] I. Loshchilov, F. Hutter, "SGDR: stochastic gradient descent with warm restarts", ICLR 2017
+   (cosine schedule).
+.. [3] L. Prechelt, "Early stopping - but when?", in Neural Networks: Tricks of the Trade (1998).
+.. [4] M. Chen, H. Jiang, W. Liao, T. Zhao, Information and Inference 11 (2022).
+.. [5] J. Schmidt-Hieber, Ann. Statist. 48 (2020).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import math
+import numbers
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+import torch
+from sklearn.base import BaseEstimator, RegressorMixin
+from sklearn.utils.validation import check_is_fitted
+
+from manireg._results import ResultMixin
+from manireg._validation import (
+    DataValidationError,
+    check_choice,
+    check_float,
+    check_int,
+    check_points,
+    check_target,
+    make_rng,
+)
+from manireg.nets.builders import ReLUNetwork, build_network, init_parameters
+from manireg.theory.sizing import ArchitectureSpec, SizingConstants, size_network
+
+__all__ = ["TrainConfig", "ReplicaTask", "ReplicaResult", "BatchedTrainer", "NetworkRegressor", "lr_at_step"]
+
+STOP_REASONS = ("patience", "step_cap", "time_cap")
+
+
+@dataclass(frozen=True)
+class TrainConfig:
+    """Settings of :class:`BatchedTrainer`. Every count is in optimiser steps, never in epochs.
+
+    Attributes
+    ----------
+    learning_rate : float, default=3e-3
+        Peak Adam learning rate [1]_.
+    schedule : {"cosine", "step", "constant"}, default="cosine"
+        ``"cosine"``: ``lr_t = lr_min + (lr - lr_min) (1 + cos(pi t / max_steps)) / 2`` with
+        ``lr_min = final_lr_fraction * lr`` [2]_. ``"step"``: ``lr`` until 50% of ``max_steps``, then
+        ``lr/10``, then ``lr/100`` from 75%. ``"constant"``: ``lr`` throughout. The schedule is tied to
+        ``max_steps`` so every replica sees the same learning rate at the same step.
+    final_lr_fraction : float, default=0.02
+        End point of the cosine schedule as a fraction of ``learning_rate``.
+    beta1, beta2, adam_eps : float, default=0.9, 0.999, 1e-8
+        Adam constants (PyTorch's defaults).
+    batch_size : int, default=128
+        Minibatch size for replicas with more than ``full_batch_threshold`` training samples.
+    full_batch_threshold : int, default=512
+        Replicas with ``n_train <= full_batch_threshold`` take full-batch steps (no sampling noise,
+        and a step on 512 rows costs little more than on 128 on a CPU).
+    max_steps : int, default=3000
+        Step cap.
+    max_seconds : float, default=600.0
+        Wall-clock cap for each group of replicas trained together.
+    min_steps : int, default=400
+        No replica stops for patience before this step.
+    patience_steps : int, default=600
+        Stop a replica when its validation MSE has not improved for this many steps.
+    tol : float, default=1e-4
+        A validation MSE counts as an improvement (new best weights, patience reset) only when it is below
+        ``(1 - tol) * best``; tiny gains of a converged fit do not keep it running.
+    eval_every : int, default=50
+        Validation MSE is computed every this many steps (and at step 0); it sets the resolution of
+        ``best_step`` and of the patience test.
+    validation_fraction : float, default=0.2
+        Share of the data held out for early stopping when a task has no validation set (and in
+        :class:`NetworkRegressor`).
+    project_weights : bool, default=False
+        Clamp every weight entry into ``[-spec.weight_bound, spec.weight_bound]`` after each step
+        (entrywise max norm, the bounded-parameter class of [5]_).
+    prune : bool, default=False
+        At step ``prune_at * max_steps`` keep each replica's ``spec.nonzero_budget`` largest weight entries
+        (global magnitude ranking), zero the rest and keep them at zero; best-weight tracking restarts
+        then, so the returned network respects the budget.
+    prune_at : float, default=0.5
+        When pruning happens, as a fraction of ``max_steps``.
+    standardize_target : bool, default=True
+        Train on ``(y - mean) / std`` of each replica's training targets (predictions are mapped back).
+    n_threads : int or None, default=None
+        torch intra-op threads during ``fit``/``predict`` (restored afterwards). None chooses per group:
+        one thread when a training step costs under 2e8 flops (thread start-up then costs more than it
+        saves, and on a shared machine it costs much more), otherwise torch's current setting.
+    """
+
+    learning_rate: float = 3e-3
+    schedule: str = "cosine"
+    final_lr_fraction: float = 0.02
+    beta1: float = 0.9
+    beta2: float = 0.999
+    adam_eps: float = 1e-8
+    batch_size: int = 128
+    full_batch_threshold: int = 512
+    max_steps: int = 3000
+    max_seconds: float = 600.0
+    min_steps: int = 400
+    patience_steps: int = 600
+    tol: float = 1e-4
+    eval_every: int = 50
+    validation_fraction: float = 0.2
+    project_weights: bool = False
+    prune: bool = False
+    prune_at: float = 0.5
+    standardize_target: bool = True
+    n_threads: int | None = None
+
+    def __post_init__(self):
+        o = "TrainConfig"
+        check_float(self.learning_rate, "learning_rate", owner=o, low=0.0, low_open=True)
+        check_choice(self.schedule, "schedule", owner=o, choices=("cosine", "step", "constant"))
+        check_float(self.final_lr_fraction, "final_lr_fraction", owner=o, low=0.0, high=1.0)
+        check_float(self.beta1, "beta1", owner=o, low=0.0, high=1.0, high_open=True)
+        check_float(self.beta2, "beta2", owner=o, low=0.0, high=1.0, high_open=True)
+        check_float(self.adam_eps, "adam_eps", owner=o, low=0.0, low_open=True)
+        check_int(self.batch_size, "batch_size", owner=o, low=1)
+        check_int(self.full_batch_threshold, "full_batch_threshold", owner=o, low=1)
+        check_int(self.max_steps, "max_steps", owner=o, low=1)
+        check_float(self.max_seconds, "max_seconds", owner=o, low=0.0, low_open=True)
+        check_int(self.min_steps, "min_steps", owner=o, low=0)
+        check_int(self.patience_steps, "patience_steps", owner=o, low=1)
+        check_int(self.eval_every, "eval_every", owner=o, low=1)
+        check_float(self.tol, "tol", owner=o, low=0.0, high=1.0, high_open=True)
+        check_float(self.validation_fraction, "validation_fraction", owner=o, low=0.0, high=1.0,
+                    low_open=True, high_open=True)
+        check_float(self.prune_at, "prune_at", owner=o, low=0.0, high=1.0, high_open=True)
+        if self.n_threads is not None:
+            check_int(self.n_threads, "n_threads", owner=o, low=1)
+
+
+def lr_at_step(config: TrainConfig, step: int) -> float:
+    """Learning rate of ``config``'s schedule at optimiser step ``step`` (0-based)."""
+    lr = config.learning_rate
+    frac = min(step / config.max_steps, 1.0)
+    if config.schedule == "cosine":
+        lo = config.final_lr_fraction * lr
+        return lo + (lr - lo) * 0.5 * (1.0 + math.cos(math.pi * frac))
+    elif config.schedule == "step":
+        return lr if frac < 0.5 else (lr * 0.1 if frac < 0.75 else lr * 0.01)
+    elif config.schedule == "constant":
+        return lr
+    else:  # pragma: no cover - TrainConfig checks the choice
+        raise ValueError(f"unknown schedule {config.schedule!r}")
+
+
+@dataclass
+class ReplicaTask:
+    """Data and seed of one replica. ``X_val``/``y_val`` may be None: the trainer then holds out
+    ``config.validation_fraction`` of the training data, chosen with ``seed``."""
+
+    X_train: np.ndarray
+    y_train: np.ndarray
+    X_val: np.ndarray | None = None
+    y_val: np.ndarray | None = None
+    seed: int = 0
+
+
+@dataclass
+class ReplicaResult(ResultMixin):
+    """Outcome of training one replica (MSEs in target units, with the output clipping applied).
+
+    Attributes
+    ----------
+    train_mse, val_mse : float
+        MSE of the restored (best-validation) network on the training and validation data.
+    steps : int
+        Optimiser steps taken.
+    best_step : int
+        Step of the best validation MSE (the restored weights).
+    stop_reason : {"patience", "step_cap", "time_cap"}
+    seconds : float
+        Wall time from the start of the replica's group to its stop.
+    n_parameters : int
+        Parameters of the dense network.
+    late_best : bool
+        ``best_step >= 0.8 * max_steps``: validation error was still improving late in the budget, so the
+        fit is probably optimisation-limited.
+    n_train, n_val : int
+    seed : int
+    nonzero_weights : int
+        Nonzero weight entries of the restored network.
+    state : dict
+        Trained weights and scalings (not in ``to_dict``); see :meth:`to_module`.
+    """
+
+    train_mse: float
+    val_mse: float
+    steps: int
+    best_step: int
+    stop_reason: str
+    seconds: float
+    n_parameters: int
+    late_best: bool
+    n_train: int
+    n_val: int
+    seed: int
+    nonzero_weights: int
+    state: dict = field(default_factory=dict, repr=False)
+
+    _skip_in_dict = ("state",)
+
+    def to_module(self) -> ReLUNetwork:
+        """The trained replica as a :class:`~manireg.nets.builders.ReLUNetwork` (eval mode)."""
+        st = self.state
+        net = build_network(
+            st["spec"], seed=0, standardize=(st["x_mean"], st["x_std"]), target_scale=(st["y_mean"], st["y_scale"])
+        )
+        with torch.no_grad():
+            for lin, W, b in zip(net.linear_layers(), st["weights"], st["biases"]):
+                lin.weight.copy_(torch.as_tensor(W).T)
+                lin.bias.copy_(torch.as_tensor(b))
+        return net.eval()
+
+
+@contextlib.contextmanager
+def _torch_threads(n):
+    if n is None:
+        yield
+        return
+    old = torch.get_num_threads()
+    torch.set_num_threads(int(n))
+    try:
+        yield
+    finally:
+        torch.set_num_threads(old)
+
+
+def _derived_seed(seed: int, stream: int) -> int:
+    return int(np.random.SeedSequence([int(seed), stream]).generate_state(1, dtype=np.uint64)[0] >> 1)
+
+
+class _Prepared:
+    """One replica's validated, standardised float32 data."""
+
+    def __init__(self, task, index, config, input_dim, owner):
+        if not isinstance(task, ReplicaTask):
+            raise ValueError(f"{owner}: tasks[{index}] must be a ReplicaTask; got {type(task).__name__}.")
+        seed = task.seed
+        if isinstance(seed, bool) or not isinstance(seed, numbers.Integral) or seed < 0:
+            raise ValueError(f"{owner}: tasks[{index}].seed must be a non-negative int; got {seed!r}.")
+        X = check_points(task.X_train, name=f"tasks[{index}].X_train", min_samples=2, owner=owner)
+        y = check_target(task.y_train, len(X), name=f"tasks[{index}].y_train", owner=owner)
+        if X.shape[1] != input_dim:
+            raise DataValidationError(
+                f"{owner}: tasks[{index}].X_train has {X.shape[1]} columns but spec.input_dim is {input_dim}. "
+                "Size the spec with input_dim=X.shape[1]."
+            )
+        if task.X_val is None:
+            rng = np.random.default_rng(_derived_seed(seed, 2))
+            perm = rng.permutation(len(X))
+            n_val = max(1, int(round(config.validation_fraction * len(X))))
+            if len(X) - n_val < 2:
+                raise DataValidationError(
+                    f"{owner}: tasks[{index}] has {len(X)} rows, too few to hold out a validation set; "
+                    "pass at least 3 rows or an explicit X_val."
+                )
+            Xv, yv = X[perm[:n_val]], y[perm[:n_val]]
+            X, y = X[perm[n_val:]], y[perm[n_val:]]
+        else:
+            Xv = check_points(task.X_val, name=f"tasks[{index}].X_val", min_samples=1, owner=owner)
+            yv = check_target(task.y_val, len(Xv), name=f"tasks[{index}].y_val", owner=owner)
+            if Xv.shape[1] != input_dim:
+                raise DataValidationError(
+                    f"{owner}: tasks[{index}].X_val has {Xv.shape[1]} columns; expected {input_dim}."
+                )
+        self.seed = int(seed)
+        self.n = len(X)
+        self.n_val = len(Xv)
+        self.x_mean = X.mean(axis=0)
+        std = X.std(axis=0)
+        self.x_std = np.where(std > 1e-12 * max(1.0, float(np.abs(X).max())), std, 1.0)
+        if config.standardize_target:
+            self.y_mean = float(y.mean())
+            ys = float(y.std())
+            self.y_scale = ys if ys > 1e-12 * max(1.0, float(np.abs(y).max())) else 1.0
+        else:
+            self.y_mean, self.y_scale = 0.0, 1.0
+        self.X = torch.from_numpy(((X - self.x_mean) / self.x_std).astype(np.float32))
+        self.y = torch.from_numpy(((y - self.y_mean) / self.y_scale).astype(np.float32))
+        self.Xv = torch.from_numpy(((Xv - self.x_mean) / self.x_std).astype(np.float32))
+        self.yv = torch.from_numpy(yv.astype(np.float32))  # validation targets stay in target units
+        self.y_raw = torch.from_numpy(y.astype(np.float32))
+        self.batch = self.n if self.n <= config.full_batch_threshold else min(config.batch_size, self.n)
+        self.full = self.n <= config.full_batch_threshold
+
+
+def _pad_stack(tensors, length):
+    """Stack along a new first axis, zero-padding axis 0 of each tensor to ``length``."""
+    shape = (len(tensors), length) + tuple(tensors[0].shape[1:])
+    out = torch.zeros(shape, dtype=torch.float32)
+    for i, t in enumerate(tensors):
+        out[i, : t.shape[0]] = t
+    return out
+
+
+def _row_weights(counts, length):
+    """(R, length) weights 1/count on the first ``count`` rows, 0 on padding."""
+    w = torch.zeros(len(counts), length, dtype=torch.float32)
+    for i, c in enumerate(counts):
+        w[i, :c] = 1.0 / c
+    return w
+
+
+def _forward(Ws, bs, x):
+    """Stacked forward pass: x (R, B, D) -> (R, B) in standardised target units."""
+    h = x
+    last = len(Ws) - 1
+    for i in range(last):
+        h = torch.relu(torch.baddbmm(bs[i], h, Ws[i]))
+    return torch.baddbmm(bs[last], h, Ws[last]).squeeze(-1)
+
+
+class BatchedTrainer:
+    """Train R replicas of the network in ``spec`` at once (stacked weights, ``torch.baddbmm``).
+
+    Parameters
+    ----------
+    spec : ArchitectureSpec
+        Shared architecture; ``spec.output_bound`` clips predictions (in target units),
+        ``spec.weight_bound`` and ``spec.nonzero_budget`` are used when ``config`` asks for projection or
+        pruning.
+    config : TrainConfig, optional
+        Defaults when None.
+
+    Notes
+    -----
+    Replicas are grouped by effective batch size: all minibatch replicas form one stack; full-batch
+    replicas (``n <= full_batch_threshold``) are stacked with others whose n lies in the same power of two
+    and zero-padded with zero loss weight, so a replica's gradient is that of its own mean loss. Groups are
+    trained one after another. A replica that stops leaves the stack (its rows are removed from the weights
+    and Adam moments), so finished replicas cost nothing. Validation MSE is computed on the clipped
+    prediction in target units; the training loss is not clipped (clamping has zero gradient outside the
+    bound, which would freeze samples there).
+
+    References
+    ----------
+    .. [1] D. P. Kingma, J. Ba, ICLR 2015.
+    .. [3] L. Prechelt, Early stopping - but when? (1998).
+    .. [4] M. Chen, H. Jiang, W. Liao, T. Zhao, Information and Inference 11 (2022).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from manireg.theory import size_network
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.normal(size=(200, 3)); y = np.sin(X[:, 0])
+    >>> trainer = BatchedTrainer(size_network(160, 1, 1, 3), TrainConfig(max_steps=100))
+    >>> results = trainer.fit([ReplicaTask(X[:160], y[:160], X[160:], y[160:], seed=s) for s in range(2)])
+    >>> trainer.predict(X[:5]).shape
+    (2, 5)
+    """
+
+    def __init__(self, spec, config=None):
+        if not isinstance(spec, ArchitectureSpec):
+            raise ValueError(
+                f"the 'spec' parameter of BatchedTrainer must be an ArchitectureSpec; got {type(spec).__name__}. "
+                "Build one with manireg.theory.size_network."
+            )
+        if config is None:
+            config = TrainConfig()
+        if not isinstance(config, TrainConfig):
+            raise ValueError(
+                f"the 'config' parameter of BatchedTrainer must be a TrainConfig or None; got {type(config).__name__}."
+            )
+        self.spec = spec
+        self.config = config
+
+    # ------------------------------------------------------------------ public
+    def fit(self, tasks):
+        """Train one replica per task; returns a ReplicaResult per task, in task order.
+
+        Parameters
+        ----------
+        tasks : sequence of ReplicaTask
+
+        Returns
+        -------
+        list of ReplicaResult
+        """
+        owner = "BatchedTrainer.fit"
+        tasks = list(tasks)
+        if not tasks:
+            raise ValueError(f"the 'tasks' parameter of {owner} must hold at least one ReplicaTask; got none.")
+        prepared = [_Prepared(t, i, self.config, self.spec.input_dim, owner) for i, t in enumerate(tasks)]
+        groups = {}
+        for i, p in enumerate(prepared):
+            key = ("full", max(0, math.ceil(math.log2(p.n)))) if p.full else ("mini", p.batch)
+            groups.setdefault(key, []).append(i)
+        results = [None] * len(tasks)
+        with torch.no_grad():
+            for key in sorted(groups, key=str):
+                idx = groups[key]
+                reps = [prepared[i] for i in idx]
+                threads = self.config.n_threads
+                if threads is None:
+                    flops = 6.0 * self.spec.n_parameters * sum(p.batch for p in reps)
+                    threads = 1 if flops < 2e8 else None
+                with _torch_threads(threads):
+                    for i, res in zip(idx, self._fit_group(reps)):
+                        results[i] = res
+        self.results_ = results
+        return results
+
+    def predict(self, X, replica=None):
+        """Predictions of the trained replicas (clipped, target units).
+
+        Parameters
+        ----------
+        X : array_like of shape (m, D)
+        replica : int or None
+            One replica's index, or None for all.
+
+        Returns
+        -------
+        ndarray of shape (R, m), or (m,) when ``replica`` is given.
+        """
+        if not hasattr(self, "results_"):
+            raise RuntimeError("BatchedTrainer.predict needs a fitted trainer; call fit(tasks) first.")
+        X = check_points(X, name="X", min_samples=1, owner="BatchedTrainer.predict")
+        if X.shape[1] != self.spec.input_dim:
+            raise DataValidationError(
+                f"BatchedTrainer.predict: X has {X.shape[1]} columns; the trainer was built for "
+                f"input_dim={self.spec.input_dim}."
+            )
+        R = len(self.results_)
+        if replica is not None:
+            replica = check_int(replica, "replica", owner="BatchedTrainer.predict", low=0, high=R - 1)
+            chosen = [self.results_[replica]]
+        else:
+            chosen = self.results_
+        with _torch_threads(self.config.n_threads), torch.no_grad():
+            out = self._predict_states([r.state for r in chosen], X)
+        return out[0] if replica is not None else out
+
+    # ------------------------------------------------------------------ internals
+    def _predict_states(self, states, X):
+        Xt = torch.from_numpy(X.astype(np.float32))
+        mean = torch.from_numpy(np.stack([s["x_mean"] for s in states]).astype(np.float32))[:, None, :]
+        std = torch.from_numpy(np.stack([s["x_std"] for s in states]).astype(np.float32))[:, None, :]
+        x = (Xt[None] - mean) / std
+        L = len(states[0]["weights"])
+        Ws = [torch.from_numpy(np.stack([s["weights"][l] for s in states])) for l in range(L)]
+        bs = [torch.from_numpy(np.stack([s["biases"][l] for s in states]))[:, None, :] for l in range(L)]
+        z = _forward(Ws, bs, x)
+        ym = torch.tensor([s["y_mean"] for s in states], dtype=torch.float32)[:, None]
+        ysc = torch.tensor([s["y_scale"] for s in states], dtype=torch.float32)[:, None]
+        pred = ym + ysc * z
+        b = self.spec.output_bound
+        if math.isfinite(b):
+            pred = pred.clamp(-b, b)
+        return pred.numpy().astype(np.float64)
+
+    def _fit_group(self, reps):
+        cfg, spec = self.config, self.spec
+        R = len(reps)
+        t0 = time.perf_counter()
+        full = reps[0].full
+        bound = spec.output_bound
+        clip = math.isfinite(bound)
+        # ---- parameters: (R, in, out) weights, (R, 1, out) biases, one init generator per replica
+        inits = [init_parameters(spec, seed=_derived_seed(p.seed, 0)) for p in reps]
+        L = len(inits[0])
+        Ws = [torch.stack([ini[l][0] for ini in inits]).contiguous() for l in range(L)]
+        bs = [torch.stack([ini[l][1] for ini in inits])[:, None, :].contiguous() for l in range(L)]
+        params = Ws + bs
+        for p in params:
+            p.requires_grad_(True)
+        m1 = [torch.zeros_like(p) for p in params]
+        m2 = [torch.zeros_like(p) for p in params]
+        best = [p.detach().clone() for p in params]
+        # ---- data
+        n_max = max(p.n for p in reps)
+        X = _pad_stack([p.X for p in reps], n_max)
+        Y = _pad_stack([p.y for p in reps], n_max)
+        nv_max = max(p.n_val for p in reps)
+        Xv = _pad_stack([p.Xv for p in reps], nv_max)
+        Yv = _pad_stack([p.yv for p in reps], nv_max)
+        wv = _row_weights([p.n_val for p in reps], nv_max)
+        ym = torch.tensor([p.y_mean for p in reps], dtype=torch.float32)[:, None]
+        ysc = torch.tensor([p.y_scale for p in reps], dtype=torch.float32)[:, None]
+        if full:
+            wtrain = _row_weights([p.n for p in reps], n_max)
+        else:
+            B = reps[0].batch
+            gens = []
+            for p in reps:
+                g = torch.Generator()
+                g.manual_seed(_derived_seed(p.seed, 1))
+                gens.append(g)
+            buffers = [torch.empty(0, dtype=torch.int64) for _ in reps]
+            chunk = 64
+            flat_X = X.reshape(R * n_max, -1)
+            flat_Y = Y.reshape(R * n_max)
+            w_mb = 1.0 / B
+        # ---- bookkeeping (per active replica)
+        active = list(range(R))
+        best_val = torch.full((R,), float("inf"))
+        best_step = torch.zeros(R, dtype=torch.int64)
+        results = [None] * R
+        masks = None
+        prune_step = int(cfg.prune_at * cfg.max_steps) if cfg.prune else -1
+        min_steps = max(cfg.min_steps, prune_step + cfg.eval_every) if cfg.prune else cfg.min_steps
+        b1, b2, eps = cfg.beta1, cfg.beta2, cfg.adam_eps
+        wb = spec.weight_bound
+
+        def val_mse():
+            z = _forward(params[:L], params[L:], Xv)
+            pred = ym + ysc * z
+            if clip:
+                pred = pred.clamp(-bound, bound)
+            return ((pred - Yv) ** 2 * wv).sum(dim=1)
+
+        def finish(local, reason, step):
+            r = active[local]
+            p = reps[r]
+            Wb = [best[l][local].clone() for l in range(L)]
+            bb = [best[L + l][local, 0].clone() for l in range(L)]
+            z = _forward([w[None] for w in Wb], [b[None, None] for b in bb], p.X[None])[0]
+            pred = p.y_mean + p.y_scale * z
+            if clip:
+                pred = pred.clamp(-bound, bound)
+            train_mse = float(((pred - p.y_raw) ** 2).mean())
+            state = {
+                "spec": spec,
+                "weights": [w.numpy() for w in Wb],
+                "biases": [b.numpy() for b in bb],
+                "x_mean": p.x_mean.astype(np.float32),
+                "x_std": p.x_std.astype(np.float32),
+                "y_mean": p.y_mean,
+                "y_scale": p.y_scale,
+            }
+            bst = int(best_step[local])
+            results[r] = ReplicaResult(
+                train_mse=train_mse,
+                val_mse=float(best_val[local]),
+                steps=int(step),
+                best_step=bst,
+                stop_reason=reason,
+                seconds=time.perf_counter() - t0,
+                n_parameters=spec.n_parameters,
+                late_best=bool(bst >= 0.8 * cfg.max_steps),
+                n_train=p.n,
+                n_val=p.n_val,
+                seed=p.seed,
+                nonzero_weights=int(sum(int(torch.count_nonzero(w)) for w in Wb)),
+                state=state,
+            )
+
+        step = 0
+        while True:
+            # ---- evaluation, early stopping, caps
+            if step % cfg.eval_every == 0 or step == cfg.max_steps:
+                v = val_mse()
+                improved = v < best_val * (1.0 - cfg.tol)
+                if bool(improved.any()):
+                    best_val = torch.where(improved, v, best_val)
+                    best_step = torch.where(improved, torch.full_like(best_step, step), best_step)
+                    sel = improved
+                    for bp, p in zip(best, params):
+                        bp.copy_(torch.where(sel.view(-1, *([1] * (p.ndim - 1))), p, bp))
+                reasons = [None] * len(active)
+                if step >= cfg.max_steps:
+                    reasons = ["step_cap"] * len(active)
+                elif time.perf_counter() - t0 >= cfg.max_seconds:
+                    reasons = ["time_cap"] * len(active)
+                elif step >= min_steps:
+                    stale = (step - best_step) >= cfg.patience_steps
+                    reasons = ["patience" if s else None for s in stale.tolist()]
+                if any(reasons):
+                    for local, reason in enumerate(reasons):
+                        if reason is not None:
+                            finish(local, reason, step)
+                    keep = [i for i, rs in enumerate(reasons) if rs is None]
+                    if not keep:
+                        break
+                    ki = torch.tensor(keep, dtype=torch.int64)
+                    params = [p.detach()[ki].contiguous().requires_grad_(True) for p in params]
+                    m1 = [m[ki].contiguous() for m in m1]
+                    m2 = [m[ki].contiguous() for m in m2]
+                    best = [bp[ki].contiguous() for bp in best]
+                    best_val, best_step = best_val[ki], best_step[ki]
+                    Xv, Yv, wv, ym, ysc = Xv[ki], Yv[ki], wv[ki], ym[ki], ysc[ki]
+                    if masks is not None:
+                        masks = [mk[ki].contiguous() for mk in masks]
+                    if full:
+                        X, Y, wtrain = X[ki], Y[ki], wtrain[ki]
+                    else:
+                        X, Y = X[ki].contiguous(), Y[ki].contiguous()
+                        flat_X, flat_Y = X.reshape(len(keep) * n_max, -1), Y.reshape(len(keep) * n_max)
+                        gens = [gens[i] for i in keep]
+                        buffers = [buffers[i] for i in keep]
+                        if step % chunk != 0:
+                            idx_chunk = idx_chunk[ki]
+                    active = [active[i] for i in keep]
+            # ---- pruning to the nonzero budget
+            if step == prune_step:
+                masks = self._prune_masks(params[:L])
+                for W, mk in zip(params[:L], masks):
+                    W.mul_(mk)
+                best_val = torch.full_like(best_val, float("inf"))
+            # ---- one Adam step on every active replica
+            Ra = len(active)
+            if full:
+                xb, yb, wb_rows = X, Y, wtrain
+            else:
+                if step % chunk == 0:
+                    idx_chunk = self._draw_chunk(reps, active, gens, buffers, chunk, B, n_max)
+                offsets = torch.arange(Ra, dtype=torch.int64)[:, None] * n_max
+                flat = (idx_chunk[:, step % chunk, :] + offsets).reshape(-1)
+                xb = flat_X.index_select(0, flat).view(Ra, B, -1)
+                yb = flat_Y.index_select(0, flat).view(Ra, B)
+                wb_rows = None
+            with torch.enable_grad():
+                z = _forward(params[:L], params[L:], xb)
+                if wb_rows is None:
+                    loss = ((z - yb) ** 2).sum() * w_mb
+                else:
+                    loss = ((z - yb) ** 2 * wb_rows).sum()
+                grads = torch.autograd.grad(loss, params)
+            step += 1
+            lr = lr_at_step(cfg, step - 1)
+            torch._foreach_mul_(m1, b1)
+            torch._foreach_add_(m1, grads, alpha=1.0 - b1)
+            torch._foreach_mul_(m2, b2)
+            torch._foreach_addcmul_(m2, grads, grads, value=1.0 - b2)
+            bc1 = 1.0 - b1**step
+            bc2 = 1.0 - b2**step
+            denom = torch._foreach_sqrt(m2)
+            torch._foreach_div_(denom, math.sqrt(bc2))
+            torch._foreach_add_(denom, eps)
+            torch._foreach_addcdiv_(params, m1, denom, value=-lr / bc1)
+            if cfg.project_weights:
+                for W in params[:L]:
+                    W.clamp_(-wb, wb)
+            if masks is not None:
+                for W, mk in zip(params[:L], masks):
+                    W.mul_(mk)
+        return results
+
+    @staticmethod
+    def _draw_chunk(reps, active, gens, buffers, chunk, B, n_max):
+        """Next ``chunk`` minibatches of every active replica, as row indices (Ra, chunk, B).
+
+        Each replica walks through its own random permutations of its rows (sampling without replacement
+        within an epoch), drawn from its own generator, so its stream does not depend on the others.
+        """
+        need = chunk * B
+        rows = []
+        for local, r in enumerate(active):
+            n = reps[r].n
+            buf = buffers[local]
+            while buf.numel() < need:
+                buf = torch.cat([buf, torch.randperm(n, generator=gens[local])])
+            rows.append(buf[:need].view(chunk, B))
+            buffers[local] = buf[need:]
+        return torch.stack(rows)
+
+    def _prune_masks(self, Ws):
+        """Per-replica global magnitude masks keeping exactly ``spec.nonzero_budget`` weight entries."""
+        Ra = Ws[0].shape[0]
+        flat = torch.cat([W.detach().abs().reshape(Ra, -1) for W in Ws], dim=1)
+        k = min(self.spec.nonzero_budget, flat.shape[1])
+        keep = torch.zeros_like(flat, dtype=torch.bool)
+        keep.scatter_(1, torch.topk(flat, k, dim=1, sorted=False).indices, True)
+        masks, start = [], 0
+        for W in Ws:
+            size = W[0].numel()
+            masks.append(keep[:, start:start + size].reshape(W.shape).to(W.dtype))
+            start += size
+        return masks
+
+
+class NetworkRegressor(RegressorMixin, BaseEstimator):
+    """ReLU network regressor sized by the manifold rules and trained by :class:`BatchedTrainer`.
+
+    Parameters
+    ----------
+    d : float or None, default=None
+        Intrinsic dimension used for sizing; None uses the number of features (no manifold assumed).
+        Estimate it with :mod:`manireg.geometry`.
+    s : float, default=1.0
+        Assumed Hölder smoothness of the target.
+    sizing_constants : SizingConstants or None
+        Constants of :func:`~manireg.theory.size_network`.
+    width_multiplier : float, default=1.0
+        Extra factor on the width.
+    output_bound : float, "auto" or None, default="auto"
+        Output clipping bound; "auto" uses ``1.1 * max|y_train|``; None disables clipping.
+    learning_rate, schedule, batch_size, full_batch_threshold, max_steps, max_seconds, min_steps,
+    patience_steps, validation_fraction, project_weights, prune, n_threads
+        As in :class:`TrainConfig`.
+    random_state : int or None
+        Seed of the validation split, the initial weights and the minibatch stream.
+
+    Attributes
+    ----------
+    spec_ : ArchitectureSpec
+    model_ : ReLUNetwork
+        The trained network (restored best-validation weights).
+    result_ : ReplicaResult
+    n_features_in_ : int
+
+    References
+    ----------
+    .. [4] M. Chen, H. Jiang, W. Liao, T. Zhao, Information and Inference 11 (2022).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.normal(size=(300, 4)); y = np.cos(X[:, 0])
+    >>> reg = NetworkRegressor(d=1, max_steps=200, random_state=0).fit(X, y)
+    >>> reg.predict(X[:3]).shape
+    (3,)
+    """
+
+    def __init__(
+        self,
+        *,
+        d=None,
+        s=1.0,
+        sizing_constants=None,
+        width_multiplier=1.0,
+        output_bound="auto",
+        learning_rate=3e-3,
+        schedule="cosine",
+        batch_size=128,
+        full_batch_threshold=512,
+        max_steps=3000,
+        max_seconds=600.0,
+        min_steps=400,
+        patience_steps=600,
+        validation_fraction=0.2,
+        project_weights=False,
+        prune=False,
+        n_threads=None,
+        random_state=None,
+    ):
+        self.d = d
+        self.s = s
+        self.sizing_constants = sizing_constants
+        self.width_multiplier = width_multiplier
+        self.output_bound = output_bound
+        self.learning_rate = learning_rate
+        self.schedule = schedule
+        self.batch_size = batch_size
+        self.full_batch_threshold = full_batch_threshold
+        self.max_steps = max_steps
+        self.max_seconds = max_seconds
+        self.min_steps = min_steps
+        self.patience_steps = patience_steps
+        self.validation_fraction = validation_fraction
+        self.project_weights = project_weights
+        self.prune = prune
+        self.n_threads = n_threads
+        self.random_state = random_state
+
+    def _config(self) -> TrainConfig:
+        return TrainConfig(
+            learning_rate=self.learning_rate,
+            schedule=self.schedule,
+            batch_size=self.batch_size,
+            full_batch_threshold=self.full_batch_threshold,
+            max_steps=self.max_steps,
+            max_seconds=self.max_seconds,
+            min_steps=self.min_steps,
+            patience_steps=self.patience_steps,
+            validation_fraction=self.validation_fraction,
+            project_weights=self.project_weights,
+            prune=self.prune,
+            n_threads=self.n_threads,
+        )
+
+    def fit(self, X, y):
+        """Size the network for ``len(X)``, train it with validation early stopping, return ``self``."""
+        owner = "NetworkRegressor"
+        X = check_points(X, min_samples=3, owner=owner)
+        y = check_target(y, len(X), owner=owner)
+        config = self._config()
+        D = X.shape[1]
+        d = D if self.d is None else self.d
+        if self.output_bound == "auto":
+            bound = 1.1 * float(np.abs(y).max()) if np.abs(y).max() > 0 else 1.0
+        elif self.output_bound is None:
+            bound = math.inf
+        else:
+            bound = check_float(self.output_bound, "output_bound", owner=owner, low=0.0, low_open=True)
+        if self.sizing_constants is not None and not isinstance(self.sizing_constants, SizingConstants):
+            raise ValueError(
+                f"the 'sizing_constants' parameter of {owner} must be a SizingConstants or None; "
+                f"got {type(self.sizing_constants).__name__}."
+            )
+        rng = make_rng(self.random_state)
+        n_val = max(1, int(round(config.validation_fraction * len(X))))
+        if len(X) - n_val < 2:
+            raise DataValidationError(f"{owner}: X has {len(X)} rows; too few to hold out a validation set.")
+        perm = rng.permutation(len(X))
+        tr, va = perm[n_val:], perm[:n_val]
+        self.spec_ = size_network(
+            len(tr), d, self.s, D, constants=self.sizing_constants,
+            width_multiplier=self.width_multiplier, output_bound=bound,
+        )
+        seed = int(rng.integers(0, 2**31 - 1))
+        trainer = BatchedTrainer(self.spec_, config)
+        (self.result_,) = trainer.fit([ReplicaTask(X[tr], y[tr], X[va], y[va], seed=seed)])
+        self.model_ = self.result_.to_module()
+        self.n_features_in_ = D
+        return self
+
+    def predict(self, X):
+        """Predictions of the trained network, shape (m,)."""
+        check_is_fitted(self, "model_")
+        X = check_points(X, min_samples=1, owner="NetworkRegressor.predict")
+        if X.shape[1] != self.n_features_in_:
+            raise DataValidationError(
+                f"NetworkRegressor.predict: X has {X.shape[1]} features, but the model was fitted with "
+                f"{self.n_features_in_}."
+            )
+        with _torch_threads(self.n_threads), torch.no_grad():
+            return self.model_(torch.from_numpy(X.astype(np.float32))).numpy().astype(np.float64)

@@ -1,0 +1,28 @@
+"""Rates and sizing rules: pure functions of n, d, s, D and explicit constants."""
+
+from manireg.theory.rates import (
+    ApproximationParameters,
+    ambient_approximation_parameters,
+    ambient_exponent,
+    approximation_parameters,
+    implied_dimension,
+    implied_smoothness,
+    predicted_error,
+    regression_exponent,
+)
+from manireg.theory.sizing import ArchitectureSpec, SizingConstants, dense_parameter_count, size_network
+
+__all__ = [
+    "regression_exponent",
+    "ambient_exponent",
+    "implied_dimension",
+    "implied_smoothness",
+    "approximation_parameters",
+    "ambient_approximation_parameters",
+    "ApproximationParameters",
+    "predicted_error",
+    "SizingConstants",
+    "ArchitectureSpec",
+    "size_network",
+    "dense_parameter_count",
+]

@@ -1,0 +1,300 @@
+"""Network size for a sample size: depth ~ log n, width ~ n^(d/(2s+d)), nonzero weights ~ width * log n.
+
+The orders come from the statistical theory of deep ReLU regression on manifolds [1]_ [2]_; the constants
+in front of them are not given by the theory in a usable form, so they are explicit, documented and
+adjustable in :class:`SizingConstants`. Every number is clipped into bounds that are themselves
+constants, so a sizing rule never produces a network that cannot be trained on a CPU.
+
+References
+----------
+.. [1] M. Chen, H. Jiang, W. Liao, T. Zhao, Information and Inference 11 (2022), arXiv:1908.01842.
+.. [2] J. Schmidt-Hieber, Ann. Statist. 48 (2020).
+.. [3] R. Nakada, M. Imaizumi, JMLR 21 (2020).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from manireg._results import ResultMixin
+from manireg._validation import check_float, check_int
+from manireg.theory.rates import regression_exponent
+
+__all__ = ["SizingConstants", "ArchitectureSpec", "size_network", "dense_parameter_count"]
+
+
+@dataclass(frozen=True)
+class SizingConstants:
+    """Constants of the sizing rules, with the bounds every rule is clipped into.
+
+    The defaults were chosen so that sample sizes from 1e2 to 1e5 give networks that train on a CPU in
+    seconds to minutes: with ``d=2, s=1`` the width runs from 20 (n=100) to 512 (clipped, n >= 65,536)
+    and the depth from 3 to 6 hidden layers.
+
+    Attributes
+    ----------
+    c_depth : float, default=0.5
+        Hidden layers ``= ceil(c_depth * log n)``. log n runs from 4.6 to 11.5 for n in [1e2, 1e5], so
+        the default gives 3 to 6 hidden layers: deep enough for the log n growth to show, shallow enough
+        that plain Adam trains without normalisation layers.
+    depth_min, depth_max : int, default=2, 8
+        Bounds on the number of hidden layers.
+    c_width : float, default=2.0
+        Width ``= ceil(c_width * n^(d/(2s+d)))``. With d=2, s=1 this is ``2 sqrt(n)``: 20 at n=100,
+        200 at n=1e4, close to the number of effective local pieces the theory asks for.
+    width_min, width_max : int, default=16, 512
+        Bounds on the width. Below 16 units ReLU nets often lose units to dead ReLUs; above 512 a
+        dense layer costs more than a CPU step budget allows at n ~ 1e5.
+    c_nonzero : float, default=16.0
+        Nonzero-weight budget ``K = ceil(c_nonzero * n^(d/(2s+d)) * log n)``, clipped to
+        [``nonzero_min``, dense weight count]. For d=2, s=1, n=1e4 this is ~14,700 nonzeros, about a
+        tenth of the dense network: magnitude pruning to this budget removes most weights while
+        keeping the fit.
+    nonzero_min : int, default=256
+        Lower bound on the budget.
+    weight_bound : float, default=4.0
+        Bound on the absolute value of every weight-matrix entry (entrywise max norm; the theory bounds
+        all parameters by a constant [2]_). Trained nets on standardised inputs rarely exceed 2, so the
+        default is only active when training drifts.
+    output_bound : float, default=inf
+        Output clipping bound used when :func:`size_network` is given none; ``inf`` means no clipping.
+        :class:`manireg.nets.NetworkRegressor` sets it from the data.
+    """
+
+    c_depth: float = 0.5
+    depth_min: int = 2
+    depth_max: int = 8
+    c_width: float = 2.0
+    width_min: int = 16
+    width_max: int = 512
+    c_nonzero: float = 16.0
+    nonzero_min: int = 256
+    weight_bound: float = 4.0
+    output_bound: float = math.inf
+
+    def __post_init__(self):
+        owner = "SizingConstants"
+        check_float(self.c_depth, "c_depth", owner=owner, low=0.0, low_open=True)
+        check_int(self.depth_min, "depth_min", owner=owner, low=1)
+        check_int(self.depth_max, "depth_max", owner=owner, low=self.depth_min)
+        check_float(self.c_width, "c_width", owner=owner, low=0.0, low_open=True)
+        check_int(self.width_min, "width_min", owner=owner, low=1)
+        check_int(self.width_max, "width_max", owner=owner, low=self.width_min)
+        check_float(self.c_nonzero, "c_nonzero", owner=owner, low=0.0, low_open=True)
+        check_int(self.nonzero_min, "nonzero_min", owner=owner, low=1)
+        check_float(self.weight_bound, "weight_bound", owner=owner, low=0.0, low_open=True)
+        if not (isinstance(self.output_bound, (int, float)) and self.output_bound > 0):
+            raise ValueError(
+                f"the 'output_bound' parameter of SizingConstants must be a real > 0 (inf for no clipping); "
+                f"got {self.output_bound!r}."
+            )
+
+
+@dataclass
+class ArchitectureSpec(ResultMixin):
+    """Shape and bounds of a ReLU network, with the rule that produced each number.
+
+    Attributes
+    ----------
+    input_dim : int
+        Number of input features D.
+    depth : int
+        Number of hidden layers.
+    width : int
+        Units per hidden layer.
+    nonzero_budget : int
+        Nonzero weight-matrix entries allowed when pruning (biases are not counted or pruned).
+    weight_bound : float
+        Entrywise bound on weight-matrix entries when projecting.
+    output_bound : float
+        Clipping bound on the output (``inf``: no clipping).
+    n_parameters : int
+        Exact number of parameters (weights and biases) of the dense network of this shape; equals
+        ``sum(p.numel() for p in build_network(spec).parameters())``.
+    rules : dict
+        Which rule produced each number, in words.
+    n, d, s : float or None
+        The inputs the spec was sized from (None when built by hand).
+    """
+
+    input_dim: int
+    depth: int
+    width: int
+    nonzero_budget: int
+    weight_bound: float = 4.0
+    output_bound: float = math.inf
+    n_parameters: int = -1
+    rules: dict = field(default_factory=dict)
+    n: float | None = None
+    d: float | None = None
+    s: float | None = None
+
+    def __post_init__(self):
+        owner = "ArchitectureSpec"
+        check_int(self.input_dim, "input_dim", owner=owner, low=1)
+        check_int(self.depth, "depth", owner=owner, low=1)
+        check_int(self.width, "width", owner=owner, low=1)
+        check_int(self.nonzero_budget, "nonzero_budget", owner=owner, low=1)
+        check_float(self.weight_bound, "weight_bound", owner=owner, low=0.0, low_open=True)
+        if not (self.output_bound > 0):
+            raise ValueError(
+                f"the 'output_bound' parameter of ArchitectureSpec must be > 0 (inf for no clipping); "
+                f"got {self.output_bound!r}."
+            )
+        exact = dense_parameter_count(self.input_dim, self.depth, self.width)
+        if self.n_parameters == -1:
+            self.n_parameters = exact
+        elif self.n_parameters != exact:
+            raise ValueError(
+                f"the 'n_parameters' parameter of ArchitectureSpec must equal the dense count {exact} for "
+                f"input_dim={self.input_dim}, depth={self.depth}, width={self.width}; got {self.n_parameters}. "
+                "Leave it out and it is computed."
+            )
+
+    @property
+    def hidden_sizes(self) -> tuple:
+        """Hidden layer sizes as a tuple, e.g. for scikit-learn's ``MLPRegressor(hidden_layer_sizes=...)``."""
+        return (self.width,) * self.depth
+
+    @property
+    def n_weights(self) -> int:
+        """Number of weight-matrix entries (parameters without biases)."""
+        return dense_weight_count(self.input_dim, self.depth, self.width)
+
+    def replace(self, **changes) -> "ArchitectureSpec":
+        """A copy with some fields changed (``n_parameters`` is recomputed)."""
+        changes.setdefault("n_parameters", -1)
+        return dataclasses.replace(self, **changes)
+
+
+def dense_weight_count(input_dim: int, depth: int, width: int) -> int:
+    """Weight-matrix entries of a dense net: ``D*w + (depth-1)*w*w + w``."""
+    return input_dim * width + (depth - 1) * width * width + width
+
+
+def dense_parameter_count(input_dim: int, depth: int, width: int) -> int:
+    """Weights plus biases of a dense ReLU net with ``depth`` hidden layers of ``width`` units and one output.
+
+    ``(D+1)*w + (depth-1)*(w+1)*w + (w+1)``.
+    """
+    return dense_weight_count(input_dim, depth, width) + depth * width + 1
+
+
+def size_network(n, d, s, input_dim, constants=None, width_multiplier=1.0, output_bound=None) -> ArchitectureSpec:
+    """Size a ReLU network for ``n`` samples of an ``s``-smooth target on a ``d``-dimensional manifold.
+
+    Rules (``a = d / (2s + d)``; all clipped into the bounds of ``constants``):
+
+    - depth ``= ceil(c_depth * log n)`` in [depth_min, depth_max];
+    - width ``= ceil(width_multiplier * c_width * n^a)`` in [width_min, width_max];
+    - nonzero budget ``= ceil(c_nonzero * n^a * log n)`` in [nonzero_min, dense weight count];
+    - weight bound ``= constants.weight_bound``; output bound as given, else ``constants.output_bound``.
+
+    These are the orders of the estimator analysed by Chen, Jiang, Liao and Zhao [1]_ (and, for sparse
+    nets in R^d, Schmidt-Hieber [2]_), which attains the rate ``n^(-2s/(2s+d))`` up to log factors.
+
+    Parameters
+    ----------
+    n : int
+        Number of training samples, >= 2.
+    d : float
+        Intrinsic dimension, >= 1 and <= ``input_dim``.
+    s : float
+        Hölder smoothness of the target, > 0.
+    input_dim : int
+        Ambient dimension D (columns of X).
+    constants : SizingConstants, optional
+        Constants and bounds; the documented defaults when None.
+    width_multiplier : float, default=1.0
+        Extra factor on the width (before clipping), for over-parameterisation studies.
+    output_bound : float, optional
+        Output clipping bound; ``constants.output_bound`` (default ``inf``) when None.
+
+    Returns
+    -------
+    ArchitectureSpec
+
+    Raises
+    ------
+    ValueError
+        For ``n < 2``, ``d < 1``, ``s <= 0``, ``d > input_dim`` or a bad constant.
+
+    References
+    ----------
+    .. [1] M. Chen, H. Jiang, W. Liao, T. Zhao, Information and Inference 11 (2022).
+    .. [2] J. Schmidt-Hieber, Ann. Statist. 48 (2020).
+
+    Examples
+    --------
+    >>> spec = size_network(10_000, d=2, s=1, input_dim=10)
+    >>> spec.depth, spec.width
+    (5, 200)
+    """
+    owner = "size_network"
+    c = SizingConstants() if constants is None else constants
+    if not isinstance(c, SizingConstants):
+        raise ValueError(
+            f"the 'constants' parameter of {owner} must be a SizingConstants or None; got {type(c).__name__}. "
+            "Build one with SizingConstants(c_width=...)."
+        )
+    if isinstance(n, (bool, np.bool_)) or not isinstance(n, (int, float, np.integer, np.floating)) or not (
+        np.isfinite(n) and n >= 2
+    ):
+        raise ValueError(
+            f"the 'n' parameter of {owner} must be a number of samples >= 2; got {n!r}. "
+            "Pass the training-set size."
+        )
+    input_dim = check_int(input_dim, "input_dim", owner=owner, low=1)
+    b = regression_exponent(d, s)  # validates d >= 1 and s > 0
+    if d > input_dim:
+        raise ValueError(
+            f"the 'd' parameter of {owner} must be <= input_dim={input_dim} (an intrinsic dimension cannot "
+            f"exceed the ambient one); got d={d!r}. Check that d and input_dim are not swapped."
+        )
+    width_multiplier = check_float(width_multiplier, "width_multiplier", owner=owner, low=0.0, low_open=True)
+    given = output_bound is not None
+    if output_bound is None:
+        output_bound = c.output_bound
+    elif not (isinstance(output_bound, (int, float, np.integer, np.floating)) and output_bound > 0):
+        raise ValueError(
+            f"the 'output_bound' parameter of {owner} must be a real > 0 (inf for no clipping) or None; "
+            f"got {output_bound!r}."
+        )
+    a = 1.0 - b  # d / (2s + d)
+    n = float(n)
+    logn = math.log(n)
+    depth = int(np.clip(math.ceil(c.c_depth * logn), c.depth_min, c.depth_max))
+    width = int(np.clip(math.ceil(width_multiplier * c.c_width * n**a), c.width_min, c.width_max))
+    dense_w = dense_weight_count(input_dim, depth, width)
+    budget = int(np.clip(math.ceil(c.c_nonzero * n**a * logn), min(c.nonzero_min, dense_w), dense_w))
+    wm = "" if width_multiplier == 1.0 else f"{width_multiplier:g} * "
+    rules = {
+        "depth": f"depth = ceil({c.c_depth:g} * log n) clipped to [{c.depth_min}, {c.depth_max}]",
+        "width": (
+            f"width = ceil({wm}{c.c_width:g} * n^(d/(2s+d))) clipped to [{c.width_min}, {c.width_max}]"
+        ),
+        "nonzero_budget": (
+            f"nonzero_budget = ceil({c.c_nonzero:g} * n^(d/(2s+d)) * log n) clipped to "
+            f"[{min(c.nonzero_min, dense_w)}, {dense_w}] (dense weight count)"
+        ),
+        "weight_bound": f"weight_bound = SizingConstants.weight_bound = {c.weight_bound:g} (entrywise)",
+        "output_bound": f"output_bound = {float(output_bound):g}"
+        + (" (given)" if given else " (SizingConstants.output_bound)"),
+        "n_parameters": "n_parameters = (D+1)*w + (depth-1)*(w+1)*w + (w+1) (dense count)",
+    }
+    return ArchitectureSpec(
+        input_dim=input_dim,
+        depth=depth,
+        width=width,
+        nonzero_budget=budget,
+        weight_bound=float(c.weight_bound),
+        output_bound=float(output_bound),
+        rules=rules,
+        n=n,
+        d=float(d),
+        s=float(s),
+    )

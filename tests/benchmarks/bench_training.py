@@ -1,0 +1,172 @@
+"""Benchmark: batched trainer vs one-at-a-time PyTorch vs scikit-learn's MLPRegressor.
+
+Run as a script (pytest does not collect it):
+
+    python tests/benchmarks/bench_training.py            # n = 256 .. 8192, 5 repeats
+    python tests/benchmarks/bench_training.py --quick    # n = 256 .. 2048, 3 repeats, shorter budget
+
+Data: a 2-sphere in R^3 placed in R^64 by a random rotation, target sin(2 x1) + x2 x3 + noise (sd 0.1),
+test MSE against the noise-free target on 2000 points. All three learners get the same hidden sizes
+(``size_network(n_train, d=2, s=1, input_dim=64)``), batch size, learning rate and validation split.
+
+FLOP count of the batched trainer: ``6 * n_parameters * rows`` per replica and optimiser step (2 flops
+per weight and row forward, 4 backward), summed over replicas and steps; validation passes are not
+counted. It is reported as GFLOP/s and as a fraction of a 2048 x 2048 float32 matmul's GFLOP/s measured
+in the same run.
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+import time
+
+import numpy as np
+
+
+def make_data(n, seed, D=64, noise=0.1):
+    Q, _ = np.linalg.qr(np.random.default_rng(42).normal(size=(D, D)))
+    rng = np.random.default_rng(seed)
+    z = rng.normal(size=(n, 3))
+    z /= np.linalg.norm(z, axis=1, keepdims=True)
+    f = np.sin(2 * z[:, 0]) + z[:, 1] * z[:, 2]
+    X = np.zeros((n, D))
+    X[:, :3] = z
+    return X @ Q.T, f + noise * rng.normal(size=n), f
+
+
+def torch_one_at_a_time(spec, cfg, Xtr, ytr, Xva, yva, seed):
+    """A plain PyTorch loop for one network: same init, schedule, batch size, early stopping."""
+    import torch
+
+    from manireg.nets import build_network
+    from manireg.nets.training import lr_at_step
+
+    xm, xs = Xtr.mean(0), Xtr.std(0)
+    xs[xs < 1e-12] = 1.0
+    ym, ysd = float(ytr.mean()), float(ytr.std())
+    net = build_network(spec, seed=seed, standardize=(xm, xs), target_scale=(ym, ysd))
+    X = torch.tensor(Xtr, dtype=torch.float32)
+    Y = torch.tensor(ytr, dtype=torch.float32)
+    Xv = torch.tensor(Xva, dtype=torch.float32)
+    Yv = torch.tensor(yva, dtype=torch.float32)
+    opt = torch.optim.Adam(net.parameters(), lr=cfg.learning_rate)
+    g = torch.Generator().manual_seed(seed)
+    n = len(X)
+    full = n <= cfg.full_batch_threshold
+    best, best_step, best_state = math.inf, 0, None
+    perm, pos = torch.randperm(n, generator=g), 0
+    for step in range(cfg.max_steps + 1):
+        if step % cfg.eval_every == 0 or step == cfg.max_steps:
+            with torch.no_grad():
+                v = float(((net(Xv) - Yv) ** 2).mean())
+            if v < best * (1 - cfg.tol):
+                best, best_step = v, step
+                best_state = {k: t.clone() for k, t in net.state_dict().items()}
+            if step == cfg.max_steps or (step >= cfg.min_steps and step - best_step >= cfg.patience_steps):
+                break
+        if full:
+            xb, yb = X, Y
+        else:
+            if pos + cfg.batch_size > n:
+                perm, pos = torch.randperm(n, generator=g), 0
+            idx = perm[pos:pos + cfg.batch_size]
+            pos += cfg.batch_size
+            xb, yb = X[idx], Y[idx]
+        for group in opt.param_groups:
+            group["lr"] = lr_at_step(cfg, step)
+        opt.zero_grad(set_to_none=True)
+        loss = ((net(xb) - yb) ** 2).mean()
+        loss.backward()
+        opt.step()
+    net.load_state_dict(best_state)
+    return net, step
+
+
+def matmul_gflops(size=2048, repeats=5):
+    import torch
+
+    a = torch.randn(size, size)
+    b = torch.randn(size, size)
+    torch.mm(a, b)
+    t = time.perf_counter()
+    for _ in range(repeats):
+        torch.mm(a, b)
+    return 2 * size**3 * repeats / (time.perf_counter() - t) / 1e9
+
+
+def main(argv=None):
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help="n up to 2048, 3 repeats, 1500-step cap")
+    parser.add_argument("--repeats", type=int, default=None)
+    args = parser.parse_args(argv)
+
+    import torch
+    from sklearn.neural_network import MLPRegressor
+    from sklearn.pipeline import make_pipeline
+    from sklearn.preprocessing import StandardScaler
+
+    from manireg.nets import BatchedTrainer, ReplicaTask, TrainConfig
+    from manireg.theory import size_network
+
+    ns = [256, 512, 1024, 2048] if args.quick else [256, 512, 1024, 2048, 4096, 8192]
+    repeats = args.repeats or (3 if args.quick else 5)
+    cfg = TrainConfig(max_steps=1500 if args.quick else 3000)
+    Xte, _, fte = make_data(2000, seed=10**6)
+    peak = matmul_gflops()
+    print(f"torch {torch.__version__}, threads {torch.get_num_threads()}, repeats {repeats}, config {cfg}")
+    print(f"reference: 2048x2048 float32 matmul {peak:.1f} GFLOP/s")
+    header = (f"{'n':>6} {'width':>5} {'depth':>5} | {'batched s':>9} {'torch1 s':>9} {'sklearn s':>9} | "
+              f"{'mse batched':>11} {'mse torch1':>10} {'mse sklearn':>11} | {'x torch1':>8} {'x sklearn':>9} | "
+              f"{'GFLOP/s':>7} {'of peak':>7} {'stops':>14}")
+    print(header)
+    tot = {"b": 0.0, "t": 0.0, "s": 0.0}
+    for n in ns:
+        n_val = n // 5
+        data = [make_data(n, seed=1000 * n + r) for r in range(repeats)]
+        n_tr = n - n_val
+        spec = size_network(n_tr, 2, 1, input_dim=64)
+        tasks = [ReplicaTask(X[:n_tr], y[:n_tr], X[n_tr:], y[n_tr:], seed=r) for r, (X, y, _) in enumerate(data)]
+        # 1) batched
+        t = time.perf_counter()
+        trainer = BatchedTrainer(spec, cfg)
+        res = trainer.fit(tasks)
+        tb = time.perf_counter() - t
+        mse_b = float(np.mean((trainer.predict(Xte) - fte) ** 2, axis=1).mean())
+        flops = sum(6.0 * spec.n_parameters * min(r.n_train if r.n_train <= cfg.full_batch_threshold
+                                                  else cfg.batch_size, r.n_train) * r.steps for r in res)
+        gfl = flops / tb / 1e9
+        # 2) one at a time, plain PyTorch
+        t = time.perf_counter()
+        mses = []
+        for r, (X, y, _) in enumerate(data):
+            net, _ = torch_one_at_a_time(spec, cfg, X[:n_tr], y[:n_tr], X[n_tr:], y[n_tr:], seed=r)
+            with torch.no_grad():
+                mses.append(float(((net(torch.tensor(Xte, dtype=torch.float32)).numpy() - fte) ** 2).mean()))
+        tt = time.perf_counter() - t
+        mse_t = float(np.mean(mses))
+        # 3) scikit-learn
+        t = time.perf_counter()
+        mses = []
+        for r, (X, y, _) in enumerate(data):
+            skl = make_pipeline(StandardScaler(), MLPRegressor(
+                hidden_layer_sizes=spec.hidden_sizes, batch_size=min(cfg.batch_size, n_tr),
+                learning_rate_init=cfg.learning_rate, early_stopping=True, validation_fraction=0.2,
+                max_iter=200, random_state=r)).fit(X, y)
+            mses.append(float(((skl.predict(Xte) - fte) ** 2).mean()))
+        ts = time.perf_counter() - t
+        mse_s = float(np.mean(mses))
+        tot["b"] += tb
+        tot["t"] += tt
+        tot["s"] += ts
+        stops = ",".join(sorted({r.stop_reason for r in res}))
+        print(f"{n:>6} {spec.width:>5} {spec.depth:>5} | {tb:>9.2f} {tt:>9.2f} {ts:>9.2f} | {mse_b:>11.5f} "
+              f"{mse_t:>10.5f} {mse_s:>11.5f} | {tt / tb:>8.2f} {ts / tb:>9.2f} | {gfl:>7.2f} {gfl / peak:>7.3f} "
+              f"{stops:>14}", flush=True)
+    print(f"total seconds: batched {tot['b']:.1f}, torch one-at-a-time {tot['t']:.1f}, sklearn {tot['s']:.1f}; "
+          f"speed-up x{tot['t'] / tot['b']:.2f} over torch one-at-a-time, x{tot['s'] / tot['b']:.2f} over sklearn")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

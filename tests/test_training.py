@@ -1,0 +1,194 @@
+"""Batched trainer: determinism, quality against scikit-learn, small-n behaviour, bounds, bad input."""
+
+import numpy as np
+import pytest
+import torch
+from sklearn.neural_network import MLPRegressor
+from sklearn.pipeline import make_pipeline
+from sklearn.preprocessing import StandardScaler
+
+from manireg._validation import DataValidationError
+from manireg.nets import BatchedTrainer, NetworkRegressor, ReplicaTask, TrainConfig, count_nonzero_weights, lr_at_step
+from manireg.theory import size_network
+
+D = 10
+
+
+def config(**kw):
+    """TrainConfig with one torch thread: the test machine is shared, and small nets gain nothing from more."""
+    kw.setdefault("n_threads", 1)
+    return TrainConfig(**kw)
+
+
+def circle_data(n, seed, noise=0.05):
+    """Unit circle in R^10 through a fixed random rotation; target sin(2t) + 0.5 cos(t) (smooth)."""
+    Q, _ = np.linalg.qr(np.random.default_rng(1234).normal(size=(D, D)))
+    rng = np.random.default_rng(seed)
+    t = rng.uniform(0, 2 * np.pi, n)
+    P = np.zeros((n, D))
+    P[:, 0], P[:, 1] = np.cos(t), np.sin(t)
+    f = np.sin(2 * t) + 0.5 * np.cos(t)
+    return P @ Q.T, f + noise * rng.normal(size=n), f
+
+
+def make_tasks(ns, seeds, n_val=200):
+    tasks = []
+    for n, s in zip(ns, seeds):
+        X, y, _ = circle_data(n + n_val, seed=100 + s)
+        tasks.append(ReplicaTask(X[:n], y[:n], X[n:], y[n:], seed=s))
+    return tasks
+
+
+def test_batched_equals_one_at_a_time():
+    # Mixed n: two full-batch replicas (padded together) and two minibatch replicas.
+    spec = size_network(600, 1, 1, input_dim=D, output_bound=2.0)
+    cfg = config(max_steps=300, min_steps=0, patience_steps=100, eval_every=20, full_batch_threshold=256,
+                      batch_size=64)
+    tasks = make_tasks([150, 250, 600, 900], seeds=[0, 1, 2, 3])
+    together = BatchedTrainer(spec, cfg)
+    res = together.fit(tasks)
+    X_test, _, _ = circle_data(100, seed=999)
+    pred_all = together.predict(X_test)
+    assert pred_all.shape == (4, 100)
+    for i, task in enumerate(tasks):
+        alone = BatchedTrainer(spec, cfg)
+        (r,) = alone.fit([task])
+        assert r.steps == res[i].steps and r.best_step == res[i].best_step
+        assert r.stop_reason == res[i].stop_reason
+        assert r.val_mse == pytest.approx(res[i].val_mse, rel=1e-4, abs=1e-6)
+        np.testing.assert_allclose(alone.predict(X_test, replica=0), pred_all[i], rtol=1e-4, atol=1e-5)
+    # different seeds give different networks
+    assert np.abs(pred_all[2] - pred_all[3]).max() > 1e-4
+
+
+def test_seed_determinism_and_module_export():
+    spec = size_network(300, 1, 1, input_dim=D)
+    cfg = config(max_steps=100)
+    tasks = make_tasks([300], seeds=[7])
+    a, b = BatchedTrainer(spec, cfg), BatchedTrainer(spec, cfg)
+    ra, rb = a.fit(tasks)[0], b.fit(tasks)[0]
+    assert ra.val_mse == rb.val_mse
+    X_test, _, _ = circle_data(50, seed=5)
+    net = ra.to_module()
+    with torch.no_grad():
+        out = net(torch.tensor(X_test, dtype=torch.float32)).numpy()
+    np.testing.assert_allclose(out, a.predict(X_test, replica=0), rtol=1e-5, atol=1e-6)
+    d = ra.to_dict()
+    assert "state" not in d and d["stop_reason"] in {"patience", "step_cap", "time_cap"}
+
+
+def test_not_worse_than_sklearn_on_circle():
+    # Reference learner: scikit-learn MLPRegressor (Adam, its own early stopping), same hidden sizes, same
+    # standardised inputs. Margin: our test MSE <= 1.5 x sklearn's + 0.005 (noise variance is 0.0025).
+    n = 1000
+    X, y, _ = circle_data(n, seed=1)
+    Xt, _, ft = circle_data(2000, seed=2, noise=0.0)
+    spec = size_network(int(0.8 * n), 1, 1, input_dim=D)
+    ours = NetworkRegressor(d=1, s=1, max_steps=1500, n_threads=1, random_state=0).fit(X, y)
+    mse_ours = float(np.mean((ours.predict(Xt) - ft) ** 2))
+    skl = make_pipeline(
+        StandardScaler(),
+        MLPRegressor(hidden_layer_sizes=spec.hidden_sizes, learning_rate_init=3e-3, early_stopping=True,
+                     max_iter=300, random_state=0),
+    ).fit(X, y)
+    mse_skl = float(np.mean((skl.predict(Xt) - ft) ** 2))
+    assert ours.spec_.hidden_sizes == spec.hidden_sizes
+    assert mse_ours <= 1.5 * mse_skl + 0.005, (mse_ours, mse_skl)
+
+
+def test_small_n_rough_target_does_not_collapse():
+    # Rough target: sum of |t - c|^0.5 bumps (Hölder 1/2) on the circle, n = 256, 4 replicas.
+    def rough(n, seed):
+        X, _, _ = circle_data(n, seed=seed, noise=0.0)
+        Q, _ = np.linalg.qr(np.random.default_rng(1234).normal(size=(D, D)))
+        P = X @ Q
+        t = np.arctan2(P[:, 1], P[:, 0])
+        y = sum(np.abs(t - c) ** 0.5 for c in (-2.0, 0.0, 1.5))
+        return X, y
+    tasks = []
+    for s in range(4):
+        X, y = rough(256 + 64, seed=20 + s)
+        tasks.append(ReplicaTask(X[:256], y[:256], X[256:], y[256:], seed=s))
+    spec = size_network(256, 1, 0.5, input_dim=D)
+    res = BatchedTrainer(spec, config(max_steps=800)).fit(tasks)
+    for r, task in zip(res, tasks):
+        mean_mse = float(np.mean((task.y_val - task.y_train.mean()) ** 2))
+        assert r.val_mse < 0.25 * mean_mse, (r.val_mse, mean_mse)
+        assert r.train_mse < 0.25 * float(np.var(task.y_train))
+
+
+def test_projection_and_pruning_in_trainer():
+    spec = size_network(500, 1, 1, input_dim=D, output_bound=1.0).replace(weight_bound=0.3, nonzero_budget=200)
+    cfg = config(max_steps=200, min_steps=0, patience_steps=50, project_weights=True, prune=True, prune_at=0.5)
+    trainer = BatchedTrainer(spec, cfg)
+    res = trainer.fit(make_tasks([500, 300], seeds=[0, 1]))
+    for r in res:
+        assert r.nonzero_weights <= 200
+        assert r.steps > 100  # no patience stop before the prune step
+        assert max(float(np.abs(W).max()) for W in r.state["weights"]) <= 0.3 * (1 + 1e-6)
+        net = r.to_module()
+        assert count_nonzero_weights(net) <= 200
+    X_test, _, _ = circle_data(300, seed=3)
+    assert np.abs(trainer.predict(X_test)).max() <= 1.0
+
+
+def test_stop_reasons_and_late_best():
+    spec = size_network(300, 1, 1, input_dim=D)
+    (r,) = BatchedTrainer(spec, config(max_steps=60, eval_every=10)).fit(make_tasks([300], [0]))
+    assert r.stop_reason == "step_cap" and r.steps == 60
+    assert r.late_best == (r.best_step >= 48)
+    (r,) = BatchedTrainer(spec, config(max_steps=10**6, max_seconds=0.2)).fit(make_tasks([300], [0]))
+    assert r.stop_reason == "time_cap"
+    # patience: a pure-noise target (independent of X) stops improving after the first evaluations
+    X, _, _ = circle_data(300, seed=0)
+    noise = np.random.default_rng(0).normal(size=300)
+    task = ReplicaTask(X[:200], noise[:200], X[200:], noise[200:], seed=0)
+    (r,) = BatchedTrainer(spec, config(max_steps=3000, min_steps=0, patience_steps=100, eval_every=10)).fit([task])
+    assert r.stop_reason == "patience" and r.steps < 3000
+
+
+def test_schedule():
+    cfg = config(learning_rate=1.0, max_steps=100, final_lr_fraction=0.0)
+    assert lr_at_step(cfg, 0) == pytest.approx(1.0) and lr_at_step(cfg, 50) == pytest.approx(0.5)
+    assert lr_at_step(cfg, 100) == pytest.approx(0.0, abs=1e-12)
+    step = config(learning_rate=1.0, max_steps=100, schedule="step")
+    assert [lr_at_step(step, t) for t in (0, 60, 80)] == pytest.approx([1.0, 0.1, 0.01])
+
+
+def test_regressor_sklearn_contract():
+    from sklearn.base import clone
+
+    reg = NetworkRegressor(d=1, max_steps=50, n_threads=1, random_state=0)
+    assert clone(reg).get_params()["max_steps"] == 50
+    X, y, _ = circle_data(200, seed=0)
+    reg.fit(X, y)
+    assert reg.predict(X).shape == (200,) and reg.n_features_in_ == D
+    assert reg.result_.n_parameters == reg.spec_.n_parameters
+    assert np.abs(reg.predict(X)).max() <= 1.1 * np.abs(y).max() + 1e-6
+
+
+def test_bad_inputs():
+    spec = size_network(300, 1, 1, input_dim=D)
+    X, y, _ = circle_data(300, seed=0)
+    Xn = X.copy()
+    Xn[3, 2] = np.nan
+    with pytest.raises(ValueError, match=r"tasks\[0\]\.X_train has 1 non-finite value"):
+        BatchedTrainer(spec).fit([ReplicaTask(Xn, y, seed=0)])
+    with pytest.raises(DataValidationError, match=r"NetworkRegressor: X has 1 non-finite value"):
+        NetworkRegressor(d=1).fit(Xn, y)
+    with pytest.raises(ValueError, match=r"X_train has 3 columns but spec.input_dim is 10"):
+        BatchedTrainer(spec).fit([ReplicaTask(X[:, :3], y, seed=0)])
+    with pytest.raises(ValueError, match=r"'d' parameter of size_network must be <= input_dim=10"):
+        NetworkRegressor(d=20).fit(X, y)
+    with pytest.raises(ValueError, match=r"'s' parameter of regression_exponent must be a finite real > 0"):
+        NetworkRegressor(d=1, s=0).fit(X, y)
+    with pytest.raises(ValueError, match=r"NetworkRegressor: X has 2 row\(s\); at least 3 are needed"):
+        NetworkRegressor(d=1).fit(X[:2], y[:2])
+    with pytest.raises(ValueError, match=r"'patience_steps' parameter of TrainConfig must be an int >= 1"):
+        config(patience_steps=0)
+    with pytest.raises(ValueError, match=r"'schedule' parameter of TrainConfig must be one of"):
+        config(schedule="linear")
+    with pytest.raises(ValueError, match=r"'tasks' parameter of BatchedTrainer.fit must hold at least one"):
+        BatchedTrainer(spec).fit([])
+    with pytest.raises(RuntimeError, match=r"call fit\(tasks\) first"):
+        BatchedTrainer(spec).predict(X)
