@@ -1,0 +1,260 @@
+"""Run the cells of a study in-process, in local worker processes, or on a dask.distributed cluster.
+
+The pending cells (those not yet in the store) are grouped into work units: all repeats of one net learner
+at one n form one unit (they share an architecture and go to one ``BatchedTrainer.fit`` call); every other
+cell is a unit of its own. A unit is a plain function call, :func:`run_unit`, that returns one row per
+cell; a unit that raises gives ``status="failed"`` rows carrying the error message. The parent process
+writes each unit's rows as they arrive, one transaction per cell, so a killed run loses only the units in
+flight.
+
+Executors:
+
+``"inprocess"``
+    Units run one after another in this process.
+``"processes"``
+    Units run in ``n_jobs`` local worker processes (joblib's loky backend [1]_).
+``"dask"``
+    Units are submitted to a dask.distributed cluster [2]_ (``client.submit`` / ``as_completed``): pass
+    ``scheduler="tcp://host:8786"`` or a ``Client``; with neither, a local cluster of ``n_jobs`` single-thread
+    workers is started and closed afterwards. This is the way past one machine.
+
+Rows do not depend on the executor: every random step is seeded from the cell, and torch runs with
+``torch_threads`` intra-op threads inside every unit (1 by default), so float reductions happen in the same
+order everywhere. Only ``seconds`` and ``created_at`` differ between runs.
+
+References
+----------
+.. [1] joblib, "Embarrassingly parallel for loops", https://joblib.readthedocs.io/en/stable/parallel.html
+.. [2] Dask.distributed, "Futures", https://distributed.dask.org/en/stable/client.html
+"""
+
+from __future__ import annotations
+
+import contextlib
+import datetime
+import os
+import traceback
+
+from manireg._validation import check_choice, check_int
+from manireg.curves.learners import make_learner
+from manireg.curves.sweep import ROW_COLUMNS, canonical_json
+
+__all__ = ["run_cells", "run_unit", "make_units", "EXECUTORS", "RunSummary"]
+
+EXECUTORS = ("inprocess", "processes", "dask")
+
+
+class RunSummary(dict):
+    """What :func:`run_cells` did: ``total``, ``skipped``, ``ran``, ``failed`` counts and the ``executor``."""
+
+
+def make_units(cells) -> list:
+    """Group cells into work units: a batchable learner's cells of one n together, others alone.
+
+    Parameters
+    ----------
+    cells : list of Cell
+
+    Returns
+    -------
+    list of list of Cell
+        In the order of first appearance.
+    """
+    units, index = [], {}
+    for c in cells:
+        if make_learner(c.learner).batchable:
+            k = c.unit_key
+            if k not in index:
+                index[k] = len(units)
+                units.append([])
+            units[index[k]].append(c)
+        else:
+            units.append([c])
+    return units
+
+
+@contextlib.contextmanager
+def _threads(n):
+    try:
+        import torch
+    except ImportError:  # pragma: no cover - torch is a dependency
+        yield
+        return
+    old = torch.get_num_threads()
+    torch.set_num_threads(int(n))
+    try:
+        yield
+    finally:
+        torch.set_num_threads(old)
+
+
+def _base_row(cell):
+    return {"key": cell.key, "study": cell.study, "learner": cell.learner.name, "n": cell.n,
+            "repeat": cell.repeat, "seed": cell.seed, "config_json": canonical_json(cell.config)}
+
+
+def run_unit(cells, data, torch_threads: int = 1) -> list:
+    """Run one work unit and return one row (dict with :data:`ROW_COLUMNS`) per cell, in order.
+
+    Never raises for a failing learner: its cells come back with ``status="failed"`` and the error.
+
+    Parameters
+    ----------
+    cells : list of Cell
+        Cells of one learner (and, for batchable learners, one n).
+    data : StudyData
+    torch_threads : int, default=1
+        torch intra-op threads while the unit runs (restored afterwards).
+    """
+    learner = make_learner(cells[0].learner)
+    now = datetime.datetime.now(datetime.timezone.utc).isoformat(timespec="seconds")
+    try:
+        with _threads(torch_threads):
+            metrics = learner.run(list(cells), data)
+        status, error = "ok", None
+    except Exception as exc:  # noqa: BLE001 - a failing cell is recorded, not raised
+        tb = traceback.format_exception_only(type(exc), exc)[-1].strip()
+        metrics, status, error = [{} for _ in cells], "failed", tb
+    rows = []
+    for c, m in zip(cells, metrics):
+        row = dict.fromkeys(ROW_COLUMNS)
+        row.update(_base_row(c))
+        row.update(m)
+        row.update(status=status, error=error, created_at=now)
+        rows.append(row)
+    return rows
+
+
+def _progress(total, initial, enabled, desc):
+    if not enabled:
+        return None
+    from tqdm.auto import tqdm
+
+    return tqdm(total=total, initial=initial, desc=desc, unit="cell", dynamic_ncols=True)
+
+
+def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=None, progress=True, *,
+              retry_failed=False, torch_threads=1) -> RunSummary:
+    """Run the cells that are not yet in ``store`` and write their rows there.
+
+    Parameters
+    ----------
+    cells : list of Cell
+        From :func:`manireg.curves.sweep.expand`.
+    data : StudyData
+        From :func:`manireg.curves.sweep.prepare` (the same the cells were expanded from).
+    store : ResultStore
+    executor : {"inprocess", "processes", "dask"}, default="inprocess"
+    n_jobs : int, optional
+        Worker processes for ``"processes"`` (default: CPU count) and workers of the local dask cluster
+        started when ``executor="dask"`` has no ``scheduler`` (default 2).
+    scheduler : str or distributed.Client, optional
+        Address of a dask scheduler (``"tcp://host:8786"``) or a connected Client.
+    progress : bool, default=True
+        A tqdm bar (``tqdm.auto``: the notebook widget in Jupyter) with cells done / total and time left.
+    retry_failed : bool, default=False
+        Run cells stored with ``status="failed"`` again (otherwise they count as done).
+    torch_threads : int, default=1
+        torch threads inside each unit; keep it fixed to keep rows identical across executors.
+
+    Returns
+    -------
+    RunSummary
+
+    Raises
+    ------
+    KeyboardInterrupt
+        Re-raised after submission stops; every unit that finished is already stored.
+
+    References
+    ----------
+    .. [1] joblib parallel: https://joblib.readthedocs.io/en/stable/parallel.html
+    .. [2] dask.distributed futures: https://distributed.dask.org/en/stable/client.html
+    """
+    owner = "run_cells"
+    check_choice(executor, "executor", owner=owner, choices=EXECUTORS)
+    torch_threads = check_int(torch_threads, "torch_threads", owner=owner, low=1)
+    if n_jobs is not None:
+        n_jobs = check_int(n_jobs, "n_jobs", owner=owner, low=1)
+    done = store.finished_keys(include_failed=not retry_failed)
+    pending = [c for c in cells if c.key not in done]
+    total = len(cells)
+    summary = RunSummary(total=total, skipped=total - len(pending), ran=0, failed=0, executor=executor)
+    if not pending:
+        return summary
+    units = make_units(pending)
+    bar = _progress(total, total - len(pending), progress, getattr(data, "label", "study"))
+
+    def record(rows):
+        for row in rows:
+            store.put(row)
+            summary["ran"] += 1
+            summary["failed"] += row["status"] != "ok"
+        if bar is not None:
+            bar.update(len(rows))
+
+    try:
+        if executor == "inprocess":
+            for unit in units:
+                record(run_unit(unit, data, torch_threads))
+        elif executor == "processes":
+            _run_joblib(units, data, n_jobs or os.cpu_count() or 1, torch_threads, record)
+        else:
+            _run_dask(units, data, scheduler, n_jobs or 2, torch_threads, record)
+    finally:
+        if bar is not None:
+            bar.close()
+    return summary
+
+
+def _run_joblib(units, data, n_jobs, torch_threads, record):
+    from joblib import Parallel, delayed
+
+    par = Parallel(n_jobs=n_jobs, backend="loky", return_as="generator_unordered")
+    gen = par(delayed(run_unit)(u, data, torch_threads) for u in units)
+    try:
+        for rows in gen:
+            record(rows)
+    finally:
+        close = getattr(gen, "close", None)
+        if close is not None:
+            close()  # on KeyboardInterrupt: stop dispatching, abort what is queued
+
+
+def _run_dask(units, data, scheduler, n_workers, torch_threads, record):
+    try:
+        from distributed import Client, LocalCluster, as_completed
+    except ImportError:  # pragma: no cover - optional dependency
+        raise ImportError(
+            "executor='dask' needs dask.distributed; install it with pip install 'manireg[distributed]' "
+            "or pick executor='processes'."
+        ) from None
+    own_client, cluster = False, None
+    if scheduler is None:
+        cluster = LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True, dashboard_address=None)
+        client, own_client = Client(cluster), True
+    elif isinstance(scheduler, str):
+        client, own_client = Client(scheduler), True
+    elif isinstance(scheduler, Client):
+        client = scheduler
+    else:
+        raise ValueError(
+            f"the 'scheduler' parameter of run_cells must be a dask scheduler address (str), a "
+            f"distributed.Client or None; got {type(scheduler).__name__}."
+        )
+    futures = []
+    try:
+        data_future = client.scatter(data, broadcast=True)
+        futures = [client.submit(run_unit, u, data_future, torch_threads, pure=False) for u in units]
+        for fut in as_completed(futures):
+            record(fut.result())
+    except BaseException:
+        for f in futures:
+            if not f.done():
+                f.cancel()
+        raise
+    finally:
+        if own_client:
+            client.close()
+        if cluster is not None:
+            cluster.close()

@@ -1,0 +1,333 @@
+"""The learner registry of a study: what a learner is, how it is named and how it turns cells into rows.
+
+A learner is described by a :class:`LearnerSpec` (kind, name, parameters). Its kind picks a class from the
+registry (:data:`LEARNER_KINDS`; extend it with :func:`register_learner`):
+
+``"net"``
+    A ReLU network sized by :func:`manireg.theory.size_network` (with ``width_multiplier``) and trained by
+    :class:`manireg.nets.training.BatchedTrainer`. Cells of one net learner and one n share one
+    architecture, so all their repeats are trained in ONE ``BatchedTrainer.fit`` call. Width multipliers
+    are distinct learners (default names ``"net"``, ``"net-w0.5"``, ``"net-w2"``), so one study holds a
+    capacity sweep.
+``"knn"``
+    k-nearest-neighbour regression with ``k = ceil(c * n^(2s/(2s+d)))``
+    (:func:`manireg.curves.baselines.knn_k`).
+``"kernel_ridge"``
+    Gaussian kernel ridge with bandwidth ``h = c_bandwidth * median distance * n^(-1/(2s+d))`` and penalty
+    ``c_ridge * n^(-2s/(2s+d))``; Nyström above ``max_exact`` points (:mod:`manireg.curves.baselines`).
+
+Every learner fits on the same points of a cell: the first ``n_fit = n - n_val`` of the cell's ``n``
+(``n_val = round(val_fraction * n)``), reports its validation MSE on the other ``n_val`` and its test MSE on
+the study's fixed test set. Nets use the validation part for early stopping; the baselines only report it.
+
+References
+----------
+.. [1] M. Chen, H. Jiang, W. Liao, T. Zhao, Information and Inference 11 (2022).
+.. [2] L. Györfi, M. Kohler, A. Krzyżak, H. Walk, *A Distribution-Free Theory of Nonparametric
+   Regression*, Springer (2002).
+.. [3] S. Kpotufe, NIPS (2011).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from manireg.curves import baselines
+
+__all__ = ["LearnerSpec", "Learner", "NetLearner", "KNNLearner", "KernelRidgeLearner", "LEARNER_KINDS",
+           "register_learner", "make_learner"]
+
+
+@dataclass
+class LearnerSpec:
+    """A learner of a study: its kind, its name (the ``learner`` column of the rows) and its parameters.
+
+    Parameters
+    ----------
+    kind : str
+        One of :data:`LEARNER_KINDS` (``"net"``, ``"knn"``, ``"kernel_ridge"``).
+    name : str, optional
+        Row label. Default: the kind, and for nets with ``width_multiplier != 1`` ``"net-w<m>"``
+        (``"net-w0.5"``, ``"net-w2"``).
+    params : dict
+        ``"net"``: ``width_multiplier`` (default 1.0), ``constants`` (dict of
+        :class:`manireg.theory.SizingConstants` fields), ``output_bound`` (None: no clipping) and any
+        :class:`manireg.nets.training.TrainConfig` field (``learning_rate``, ``max_steps``, ...).
+        ``"knn"``: ``c`` (default 1.0) or a fixed ``k``. ``"kernel_ridge"``: ``c_bandwidth`` (1.0),
+        ``c_ridge`` (1e-3), ``max_exact`` (3000).
+
+    Raises
+    ------
+    ValueError
+        For an unknown kind (the message lists the known ones) or an unknown parameter.
+
+    Examples
+    --------
+    >>> LearnerSpec("net", params={"width_multiplier": 2}).name
+    'net-w2'
+    """
+
+    kind: str
+    name: str | None = None
+    params: dict = field(default_factory=dict)
+
+    def __post_init__(self):
+        if not isinstance(self.kind, str) or self.kind not in LEARNER_KINDS:
+            raise ValueError(
+                f"the 'kind' parameter of LearnerSpec must be one of {sorted(LEARNER_KINDS)}; got {self.kind!r}. "
+                "Register a new kind with manireg.curves.learners.register_learner."
+            )
+        if self.params is None:
+            self.params = {}
+        if not isinstance(self.params, dict):
+            raise ValueError(f"the 'params' parameter of LearnerSpec must be a dict; got {type(self.params).__name__}.")
+        self.params = dict(self.params)
+        LEARNER_KINDS[self.kind].check_params(self.params)
+        if self.name is None:
+            self.name = LEARNER_KINDS[self.kind].default_name(self.params)
+        if not isinstance(self.name, str) or not self.name:
+            raise ValueError(f"the 'name' parameter of LearnerSpec must be a non-empty str; got {self.name!r}.")
+
+    @classmethod
+    def coerce(cls, value) -> "LearnerSpec":
+        """A LearnerSpec from a LearnerSpec, a kind string (``"knn"``) or a dict of its fields."""
+        if isinstance(value, LearnerSpec):
+            return value
+        if isinstance(value, str):
+            return cls(value)
+        if isinstance(value, dict):
+            return cls(**value)
+        raise ValueError(
+            f"a learner must be a LearnerSpec, a kind string or a dict; got {type(value).__name__}. "
+            f"Known kinds: {sorted(LEARNER_KINDS)}."
+        )
+
+    def to_dict(self) -> dict:
+        return {"kind": self.kind, "name": self.name, "params": dict(self.params)}
+
+
+class Learner:
+    """Base class of a registered learner kind.
+
+    Subclasses set ``kind``, ``allowed`` (parameter names), ``batchable`` (whether cells of one n go to one
+    call) and implement :meth:`resolve` (the full configuration, defaults included, that goes into the
+    cell key) and :meth:`run` (cells -> metric dicts).
+    """
+
+    kind = ""
+    allowed: tuple = ()
+    batchable = False
+
+    def __init__(self, spec: LearnerSpec):
+        self.spec = spec
+
+    @classmethod
+    def check_params(cls, params):
+        unknown = sorted(set(params) - set(cls.allowed_params()))
+        if unknown:
+            raise ValueError(
+                f"LearnerSpec(kind={cls.kind!r}) got unknown parameter(s) {unknown}; allowed: "
+                f"{sorted(cls.allowed_params())}."
+            )
+
+    @classmethod
+    def allowed_params(cls):
+        return cls.allowed
+
+    @classmethod
+    def default_name(cls, params) -> str:
+        return cls.kind
+
+    def resolve(self, context) -> dict:  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def run(self, cells, data) -> list:  # pragma: no cover - abstract
+        raise NotImplementedError
+
+
+def _mse(a, b):
+    return float(np.mean((np.asarray(a, float) - np.asarray(b, float)) ** 2))
+
+
+def _test_errors(pred, data):
+    clean = None if data.f_test is None else _mse(pred, data.f_test)
+    return _mse(pred, data.y_test), clean
+
+
+class NetLearner(Learner):
+    """ReLU network sized by the theory and trained by the batched trainer (see module docstring)."""
+
+    kind = "net"
+    batchable = True
+    _own = ("width_multiplier", "constants", "output_bound")
+
+    @classmethod
+    def allowed_params(cls):
+        from manireg.nets.training import TrainConfig
+
+        return cls._own + tuple(f.name for f in dataclasses.fields(TrainConfig))
+
+    @classmethod
+    def check_params(cls, params):
+        super().check_params(params)
+        wm = params.get("width_multiplier", 1.0)
+        if isinstance(wm, bool) or not isinstance(wm, (int, float)) or not (math.isfinite(wm) and wm > 0):
+            raise ValueError(f"the 'width_multiplier' parameter of LearnerSpec('net') must be a real > 0; got {wm!r}.")
+
+    @classmethod
+    def default_name(cls, params) -> str:
+        wm = float(params.get("width_multiplier", 1.0))
+        return "net" if wm == 1.0 else f"net-w{wm:g}"
+
+    def _configs(self):
+        from manireg.nets.training import TrainConfig
+        from manireg.theory.sizing import SizingConstants
+
+        p = self.spec.params
+        train = TrainConfig(**{k: v for k, v in p.items() if k not in self._own})
+        constants = SizingConstants(**dict(p.get("constants") or {}))
+        return train, constants
+
+    def resolve(self, context) -> dict:
+        train, constants = self._configs()
+        ob = self.spec.params.get("output_bound")
+        return {
+            "width_multiplier": float(self.spec.params.get("width_multiplier", 1.0)),
+            "output_bound": None if ob is None else float(ob),
+            "constants": dataclasses.asdict(constants),
+            "train": dataclasses.asdict(train),
+        }
+
+    def architecture(self, n, data):
+        from manireg.theory.sizing import size_network
+
+        train, constants = self._configs()
+        return size_network(n, data.d, data.s, data.D, constants=constants,
+                            width_multiplier=float(self.spec.params.get("width_multiplier", 1.0)),
+                            output_bound=self.spec.params.get("output_bound"))
+
+    def run(self, cells, data) -> list:
+        from manireg.nets.training import BatchedTrainer, ReplicaTask
+
+        ns = {c.n for c in cells}
+        if len(ns) != 1:
+            raise ValueError(f"NetLearner.run: cells of one call must share n; got sizes {sorted(ns)}.")
+        train, _ = self._configs()
+        arch = self.architecture(cells[0].n, data)
+        tasks = []
+        for c in cells:
+            Xf, yf, Xv, yv = data.cell_split(c)
+            tasks.append(ReplicaTask(Xf, yf, Xv, yv, seed=int(c.seed)))
+        trainer = BatchedTrainer(arch, train)
+        results = trainer.fit(tasks)
+        out = []
+        for i, r in enumerate(results):
+            test, clean = _test_errors(trainer.predict(data.X_test, replica=i), data)
+            out.append({
+                "train_mse": float(r.train_mse), "val_mse": float(r.val_mse), "test_mse": test,
+                "test_mse_clean": clean, "steps": int(r.steps), "best_step": int(r.best_step),
+                "stop_reason": str(r.stop_reason), "late_best": bool(r.late_best), "seconds": float(r.seconds),
+                "n_parameters": int(r.n_parameters), "width": int(arch.width), "depth": int(arch.depth),
+                "width_multiplier": float(self.spec.params.get("width_multiplier", 1.0)),
+            })
+        return out
+
+
+def _baseline_row(pred_fit, yf, pred_val, yv, pred_test, data, seconds):
+    test, clean = _test_errors(pred_test, data)
+    return {
+        "train_mse": _mse(pred_fit, yf), "val_mse": _mse(pred_val, yv) if len(yv) else None,
+        "test_mse": test, "test_mse_clean": clean, "steps": None, "best_step": None,
+        "stop_reason": None, "late_best": None, "seconds": seconds, "n_parameters": None,
+        "width": None, "depth": None, "width_multiplier": None,
+    }
+
+
+class KNNLearner(Learner):
+    """k-nearest-neighbour regression with the rate-optimal k rule (see :func:`baselines.knn_k`)."""
+
+    kind = "knn"
+    allowed = ("c", "k")
+
+    @classmethod
+    def check_params(cls, params):
+        super().check_params(params)
+        if "k" in params and params["k"] is not None:
+            k = params["k"]
+            if isinstance(k, bool) or not isinstance(k, (int, np.integer)) or k < 1:
+                raise ValueError(f"the 'k' parameter of LearnerSpec('knn') must be an int >= 1; got {k!r}.")
+
+    def resolve(self, context) -> dict:
+        k = self.spec.params.get("k")
+        return {"c": float(self.spec.params.get("c", baselines.DEFAULT_KNN_C)), "k": None if k is None else int(k)}
+
+    def k_for(self, n_fit, data):
+        k = self.spec.params.get("k")
+        if k is not None:
+            return int(min(k, n_fit))
+        return baselines.knn_k(n_fit, data.d, data.s, c=float(self.spec.params.get("c", baselines.DEFAULT_KNN_C)))
+
+    def run(self, cells, data) -> list:
+        out = []
+        for c in cells:
+            t0 = time.perf_counter()
+            Xf, yf, Xv, yv = data.cell_split(c)
+            k = self.k_for(len(Xf), data)
+            Q = np.vstack([Xf, Xv, data.X_test])
+            pred = baselines.knn_regress(Xf, yf, Q, k)
+            a, b = len(Xf), len(Xf) + len(Xv)
+            out.append(_baseline_row(pred[:a], yf, pred[a:b], yv, pred[b:], data, time.perf_counter() - t0))
+        return out
+
+
+class KernelRidgeLearner(Learner):
+    """Gaussian kernel ridge with rate-driven bandwidth and penalty (see :mod:`baselines`)."""
+
+    kind = "kernel_ridge"
+    allowed = ("c_bandwidth", "c_ridge", "max_exact")
+
+    def resolve(self, context) -> dict:
+        p = self.spec.params
+        return {
+            "c_bandwidth": float(p.get("c_bandwidth", baselines.DEFAULT_BANDWIDTH_C)),
+            "c_ridge": float(p.get("c_ridge", baselines.DEFAULT_RIDGE_C)),
+            "max_exact": int(p.get("max_exact", baselines.DEFAULT_MAX_EXACT)),
+        }
+
+    def run(self, cells, data) -> list:
+        r = self.resolve(None)
+        out = []
+        for c in cells:
+            t0 = time.perf_counter()
+            Xf, yf, Xv, yv = data.cell_split(c)
+            h = baselines.kernel_bandwidth(Xf, data.d, data.s, c=r["c_bandwidth"], seed=int(c.seed))
+            lam = baselines.kernel_ridge_penalty(len(Xf), data.d, data.s, c=r["c_ridge"])
+            Q = np.vstack([Xf, Xv, data.X_test])
+            pred = baselines.kernel_ridge_regress(Xf, yf, Q, bandwidth=h, penalty=lam, max_exact=r["max_exact"],
+                                                  seed=int(c.seed))
+            a, b = len(Xf), len(Xf) + len(Xv)
+            out.append(_baseline_row(pred[:a], yf, pred[a:b], yv, pred[b:], data, time.perf_counter() - t0))
+        return out
+
+
+#: Registered learner kinds: kind -> Learner subclass.
+LEARNER_KINDS: dict = {"net": NetLearner, "knn": KNNLearner, "kernel_ridge": KernelRidgeLearner}
+
+
+def register_learner(cls) -> type:
+    """Register a :class:`Learner` subclass under ``cls.kind`` (usable as a class decorator)."""
+    if not (isinstance(cls, type) and issubclass(cls, Learner) and isinstance(cls.kind, str) and cls.kind):
+        raise ValueError("register_learner needs a Learner subclass with a non-empty 'kind' attribute.")
+    LEARNER_KINDS[cls.kind] = cls
+    return cls
+
+
+def make_learner(spec) -> Learner:
+    """The Learner object for a :class:`LearnerSpec` (or anything :meth:`LearnerSpec.coerce` accepts)."""
+    spec = LearnerSpec.coerce(spec)
+    return LEARNER_KINDS[spec.kind](spec)

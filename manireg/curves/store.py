@@ -1,0 +1,284 @@
+"""SQLite result store of a study: one row per cell, keyed by the cell's content hash.
+
+Properties the execution layer relies on:
+
+* **WAL mode** (write-ahead log) [1]_: readers never block the writer and a killed process leaves the
+  database consistent; the cells in flight are lost, the committed ones are not.
+* **One transaction per finished cell**: :meth:`ResultStore.put` commits each row on its own.
+* **No duplicates**: the cell key is the PRIMARY KEY; an ``ok`` row is never overwritten, a ``failed`` row
+  is only replaced by a later ``ok`` row of the same key (a retry).
+* **Several writers**: every connection sets ``busy_timeout`` so concurrent writers wait for the lock
+  instead of failing [2]_.
+* **Nothing is deleted**: the store has no delete operation.
+* **Self-describing**: a ``studies`` table keeps each study's spec, data fingerprint, d, s, D and package
+  versions, so a report can be rebuilt from the file alone.
+
+References
+----------
+.. [1] SQLite, "Write-Ahead Logging", https://www.sqlite.org/wal.html
+.. [2] SQLite, "PRAGMA busy_timeout", https://www.sqlite.org/pragma.html#pragma_busy_timeout
+"""
+
+from __future__ import annotations
+
+import datetime
+import json
+import math
+import os
+import sqlite3
+
+from manireg.curves.sweep import ROW_COLUMNS
+
+__all__ = ["ResultStore", "StoreError"]
+
+_TYPES = {
+    "key": "TEXT PRIMARY KEY", "study": "TEXT NOT NULL", "learner": "TEXT NOT NULL", "n": "INTEGER NOT NULL",
+    "repeat": "INTEGER NOT NULL", "seed": "INTEGER", "train_mse": "REAL", "val_mse": "REAL", "test_mse": "REAL",
+    "test_mse_clean": "REAL", "steps": "INTEGER", "best_step": "INTEGER", "stop_reason": "TEXT",
+    "late_best": "INTEGER", "seconds": "REAL", "n_parameters": "INTEGER", "width": "INTEGER", "depth": "INTEGER",
+    "width_multiplier": "REAL", "status": "TEXT NOT NULL", "error": "TEXT", "created_at": "TEXT",
+    "config_json": "TEXT",
+}
+_STUDY_COLUMNS = ("study", "spec_json", "fingerprint", "d", "s", "ambient_dim", "meta_json", "created_at", "updated_at")
+
+
+class StoreError(ValueError):
+    """The store cannot be opened or written (a ``ValueError`` subclass)."""
+
+
+def _now():
+    return datetime.datetime.now(datetime.timezone.utc).isoformat(timespec="seconds")
+
+
+def _clean(v):
+    if isinstance(v, float) and not math.isfinite(v):
+        return None
+    if hasattr(v, "item") and not isinstance(v, (str, bytes)):
+        v = v.item()
+        if isinstance(v, float) and not math.isfinite(v):
+            return None
+    if isinstance(v, bool):
+        return int(v)
+    return v
+
+
+class ResultStore:
+    """Rows of finished cells in an SQLite file (WAL mode), safe for several processes at once.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        Database file; created (with missing parent folders) when absent.
+    timeout : float, default=60.0
+        Seconds a writer waits for the lock held by another process (``busy_timeout``).
+
+    Raises
+    ------
+    StoreError
+        When the file or its folder cannot be created or written; raised at construction, before any
+        work, naming the path and the fix.
+
+    References
+    ----------
+    .. [1] SQLite, "Write-Ahead Logging", https://www.sqlite.org/wal.html
+
+    Examples
+    --------
+    >>> import tempfile, os
+    >>> store = ResultStore(os.path.join(tempfile.mkdtemp(), "s.sqlite"))
+    >>> store.finished_keys()
+    set()
+    """
+
+    def __init__(self, path, *, timeout: float = 60.0):
+        self.path = os.fspath(path)
+        self.timeout = float(timeout)
+        self._check_writable()
+        with self._connect() as con:
+            cols = ", ".join(f'"{c}" {_TYPES[c]}' for c in ROW_COLUMNS)
+            con.execute(f"CREATE TABLE IF NOT EXISTS cells ({cols})")
+            con.execute("CREATE INDEX IF NOT EXISTS cells_study ON cells(study)")
+            con.execute(
+                "CREATE TABLE IF NOT EXISTS studies (study TEXT PRIMARY KEY, spec_json TEXT, fingerprint TEXT, "
+                "d REAL, s REAL, ambient_dim INTEGER, meta_json TEXT, created_at TEXT, updated_at TEXT)"
+            )
+
+    def __repr__(self):
+        return f"ResultStore({self.path!r})"
+
+    # ------------------------------------------------------------------ connection
+    def _fail(self, why):
+        raise StoreError(
+            f"cannot write the result store at {self.path!r}: {why}. Pass a path in a folder you can write "
+            "to (e.g. store='results/study.sqlite' under your home or project folder), or fix the permissions."
+        ) from None
+
+    def _check_writable(self):
+        folder = os.path.dirname(os.path.abspath(self.path))
+        if os.path.isdir(self.path):
+            self._fail("it is a folder, not a file")
+        try:
+            os.makedirs(folder, exist_ok=True)
+        except OSError as exc:
+            self._fail(f"its folder cannot be created ({exc.strerror or exc})")
+        if os.path.exists(self.path):
+            if not os.access(self.path, os.W_OK):
+                self._fail("the file is not writable")
+        elif not os.access(folder, os.W_OK | os.X_OK):
+            self._fail(f"the folder {folder!r} is not writable")
+        try:
+            con = self._connect()
+            con.execute("CREATE TABLE IF NOT EXISTS _probe (x INTEGER)")
+            con.commit()
+            con.close()
+        except sqlite3.DatabaseError as exc:
+            self._fail(f"SQLite could not open it ({exc})")
+
+    def _connect(self) -> sqlite3.Connection:
+        con = sqlite3.connect(self.path, timeout=self.timeout, isolation_level=None)
+        con.execute(f"PRAGMA busy_timeout = {int(self.timeout * 1000)}")
+        mode = con.execute("PRAGMA journal_mode = WAL").fetchone()[0]
+        if str(mode).lower() != "wal":  # pragma: no cover - e.g. a network file system without shared memory
+            con.execute("PRAGMA journal_mode = DELETE")
+        con.execute("PRAGMA synchronous = NORMAL")
+        return _Conn(con)
+
+    # ------------------------------------------------------------------ cells
+    def has(self, key: str) -> bool:
+        """Whether a row (ok or failed) with this key is stored."""
+        with self._connect() as con:
+            return con.execute("SELECT 1 FROM cells WHERE key = ?", (key,)).fetchone() is not None
+
+    def finished_keys(self, *, include_failed: bool = True, study: str | None = None) -> set:
+        """Keys of stored rows: every row, or only ``status='ok'`` rows with ``include_failed=False``
+        (what a run with ``retry_failed=True`` skips)."""
+        sql = "SELECT key FROM cells WHERE 1=1"
+        args = []
+        if not include_failed:
+            sql += " AND status = 'ok'"
+        if study is not None:
+            sql += " AND study = ?"
+            args.append(study)
+        with self._connect() as con:
+            return {r[0] for r in con.execute(sql, args)}
+
+    def put(self, row: dict) -> bool:
+        """Store one finished cell in its own transaction; returns True when the row was written.
+
+        An ``ok`` row is inserted unless its key is already stored as ``ok``; it replaces a ``failed`` row
+        of the same key (a retry). A ``failed`` row is inserted only when the key is absent.
+        """
+        missing = [c for c in ("key", "study", "learner", "n", "repeat", "status") if row.get(c) is None]
+        if missing:
+            raise ValueError(f"ResultStore.put: the row lacks {missing}; rows come from manireg.curves.execution.")
+        if row["status"] not in ("ok", "failed"):
+            raise ValueError(f"ResultStore.put: status must be 'ok' or 'failed'; got {row['status']!r}.")
+        values = {c: _clean(row.get(c)) for c in ROW_COLUMNS}
+        if values["created_at"] is None:
+            values["created_at"] = _now()
+        cols = ", ".join(f'"{c}"' for c in ROW_COLUMNS)
+        marks = ", ".join("?" for _ in ROW_COLUMNS)
+        if values["status"] == "ok":
+            updates = ", ".join(f'"{c}" = excluded."{c}"' for c in ROW_COLUMNS if c != "key")
+            sql = (f"INSERT INTO cells ({cols}) VALUES ({marks}) ON CONFLICT(key) DO UPDATE SET {updates} "
+                   "WHERE cells.status != 'ok'")
+        else:
+            sql = f"INSERT OR IGNORE INTO cells ({cols}) VALUES ({marks})"
+        with self._connect() as con:
+            con.execute("BEGIN IMMEDIATE")
+            try:
+                cur = con.execute(sql, [values[c] for c in ROW_COLUMNS])
+                con.execute("COMMIT")
+            except BaseException:
+                con.execute("ROLLBACK")
+                raise
+            return cur.rowcount > 0
+
+    def rows(self, study: str | None = None, *, keys=None):
+        """Stored rows as a DataFrame with the columns of :data:`manireg.curves.sweep.ROW_COLUMNS`.
+
+        Parameters
+        ----------
+        study : str, optional
+            Only this study's rows.
+        keys : iterable of str, optional
+            Only these cell keys.
+        """
+        import pandas as pd
+
+        sql = "SELECT * FROM cells"
+        args = []
+        if study is not None:
+            sql += " WHERE study = ?"
+            args.append(study)
+        sql += " ORDER BY study, learner, n, repeat"
+        with self._connect() as con:
+            df = pd.read_sql_query(sql, con.raw, params=args)
+        if keys is not None:
+            keys = set(keys)
+            df = df[df["key"].isin(keys)].reset_index(drop=True)
+        df["late_best"] = df["late_best"].map(lambda v: None if v is None or v != v else bool(v)).astype(object)
+        for c in ("train_mse", "val_mse", "test_mse", "test_mse_clean", "seconds", "width_multiplier"):
+            df[c] = pd.to_numeric(df[c], errors="coerce").astype(float)
+        return df
+
+    def __len__(self) -> int:
+        with self._connect() as con:
+            return int(con.execute("SELECT COUNT(*) FROM cells").fetchone()[0])
+
+    # ------------------------------------------------------------------ studies
+    def put_study(self, meta: dict) -> None:
+        """Record (or refresh) a study's metadata: spec, fingerprint, d, s, D, versions, ..."""
+        from manireg._results import to_jsonable
+
+        now = _now()
+        vals = (meta["study"], json.dumps(to_jsonable(meta.get("spec")), sort_keys=True), meta.get("fingerprint"),
+                _clean(meta.get("d")), _clean(meta.get("s")), _clean(meta.get("D")),
+                json.dumps(to_jsonable(meta), sort_keys=True), now, now)
+        with self._connect() as con:
+            con.execute("BEGIN IMMEDIATE")
+            try:
+                con.execute(
+                    "INSERT INTO studies VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?) ON CONFLICT(study) DO UPDATE SET "
+                    "spec_json = excluded.spec_json, fingerprint = excluded.fingerprint, d = excluded.d, "
+                    "s = excluded.s, ambient_dim = excluded.ambient_dim, meta_json = excluded.meta_json, "
+                    "updated_at = excluded.updated_at", vals)
+                con.execute("COMMIT")
+            except BaseException:
+                con.execute("ROLLBACK")
+                raise
+
+    def studies(self) -> list:
+        """Labels of the studies recorded in this store."""
+        with self._connect() as con:
+            return [r[0] for r in con.execute("SELECT study FROM studies ORDER BY study")]
+
+    def study_meta(self, study: str) -> dict:
+        """Metadata of one study (as given to :meth:`put_study`)."""
+        with self._connect() as con:
+            r = con.execute("SELECT meta_json FROM studies WHERE study = ?", (study,)).fetchone()
+        if r is None:
+            raise KeyError(f"the store {self.path!r} holds no study {study!r}; it holds {self.studies()}.")
+        return json.loads(r[0])
+
+
+class _Conn:
+    """A connection that closes on ``with`` exit (sqlite3's own context manager only commits)."""
+
+    def __init__(self, con):
+        self.raw = con
+
+    def execute(self, *a):
+        return self.raw.execute(*a)
+
+    def commit(self):
+        self.raw.commit()
+
+    def close(self):
+        self.raw.close()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.raw.close()

@@ -1,0 +1,98 @@
+"""End-to-end time of a standard learning-curve study: manireg's executor against one-cell-at-a-time sklearn.
+
+Study: ``graph_manifold(N, d=3, ambient_dim=64, seed=0)`` with ``make_regression(smoothness=1,
+noise_std=0.1, seed=1)``; sizes 256, 512, ..., 8192 (6 sizes), 5 repeats, a fixed test set of 2048 rows.
+
+* manireg: ``Study(...).run(executor=..., n_jobs=...)`` with the default net learner (sized by
+  ``size_network``, default ``TrainConfig``); the 5 repeats of each n are one ``BatchedTrainer.fit`` call.
+* reference: the same cells (same nested training sets of size n, same test set) run one after another with
+  ``sklearn.neural_network.MLPRegressor(hidden_layer_sizes=spec.hidden_sizes, early_stopping=True,
+  validation_fraction=0.2, random_state=seed)`` on standardised inputs, i.e. the same hidden sizes and the
+  same 20 % validation share for early stopping.
+
+Printed: wall time of each side (data generation excluded, store writes included), the ratio
+reference / manireg (> 1: manireg faster) and the mean test MSE (and noise-free test MSE) per n for both.
+
+Run::
+
+    python tests/benchmarks/bench_study.py            # the full grid above
+    python tests/benchmarks/bench_study.py --quick    # sizes 256..2048 (4 sizes), 3 repeats
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import tempfile
+import time
+
+import numpy as np
+
+
+def main(argv=None):
+    p = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    p.add_argument("--quick", action="store_true", help="sizes 256..2048 and 3 repeats")
+    p.add_argument("--executor", default="processes", choices=("inprocess", "processes", "dask"))
+    p.add_argument("--n-jobs", type=int, default=2)
+    p.add_argument("--torch-threads", type=int, default=1)
+    args = p.parse_args(argv)
+
+    from sklearn.neural_network import MLPRegressor
+    from sklearn.pipeline import make_pipeline
+    from sklearn.preprocessing import StandardScaler
+
+    from manireg.curves.study import Study
+    from manireg.data.manifolds import graph_manifold
+    from manireg.data.targets import make_regression
+
+    sizes = [256, 512, 1024, 2048] if args.quick else [256, 512, 1024, 2048, 4096, 8192]
+    repeats = 3 if args.quick else 5
+    test_size = 2048
+    sample = make_regression(graph_manifold(sizes[-1] + test_size, 3, 64, seed=0), 1.0, noise_std=0.1, seed=1)
+    store = os.path.join(tempfile.mkdtemp(prefix="bench-study-"), "study.sqlite")
+    study = Study.from_regression_sample(sample, sizes=sizes, repeats=repeats, test_size=test_size, seed=0,
+                                         label="bench", store=store)
+    print(f"grid: sizes {sizes}, {repeats} repeats, D=64, d=3, {len(study.cells())} cells; "
+          f"executor={args.executor}, n_jobs={args.n_jobs}, torch_threads={args.torch_threads}")
+
+    t0 = time.perf_counter()
+    res = study.run(executor=args.executor, n_jobs=args.n_jobs, torch_threads=args.torch_threads, progress=True)
+    t_ours = time.perf_counter() - t0
+
+    data = study.data
+    learner = study.data.learners[0]
+    from manireg.curves.learners import make_learner
+
+    net = make_learner(learner)
+    ref = []
+    t0 = time.perf_counter()
+    for c in study.cells():
+        arch = net.architecture(c.n, data)
+        fit_rows, val_rows = data.cell_rows(c)
+        rows = np.concatenate([fit_rows, val_rows])
+        model = make_pipeline(StandardScaler(), MLPRegressor(hidden_layer_sizes=arch.hidden_sizes, early_stopping=True,
+                                                             validation_fraction=0.2, random_state=c.seed % 2**31))
+        model.fit(data.X[rows], data.y[rows])
+        pred = model.predict(data.X_test)
+        ref.append({"n": c.n, "repeat": c.repeat, "test_mse": float(np.mean((pred - data.y_test) ** 2)),
+                    "test_mse_clean": float(np.mean((pred - data.f_test) ** 2))})
+    t_ref = time.perf_counter() - t0
+
+    import pandas as pd
+
+    ours = res.rows.groupby("n")[["test_mse", "test_mse_clean"]].mean()
+    theirs = pd.DataFrame(ref).groupby("n")[["test_mse", "test_mse_clean"]].mean()
+    table = ours.add_suffix("_manireg").join(theirs.add_suffix("_sklearn"))
+    table["failed_manireg"] = res.rows.groupby("n")["status"].agg(lambda s: int((s != "ok").sum()))
+    table["stops_manireg"] = res.rows.groupby("n")["stop_reason"].agg(
+        lambda s: ",".join(sorted({str(v) for v in s if isinstance(v, str)})))
+    print(f"\nmanireg: {t_ours:.1f} s   sklearn MLPRegressor one cell at a time: {t_ref:.1f} s   "
+          f"ratio {t_ref / t_ours:.2f}x")
+    print(f"noise variance {sample.noise_variance:.4f}")
+    with pd.option_context("display.width", 160, "display.float_format", "{:.4f}".format):
+        print(table.to_string())
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

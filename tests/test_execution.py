@@ -1,0 +1,130 @@
+"""Executors give the same rows; nets are batched per (learner, n); failures are stored, retried on request."""
+
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+import manireg.curves.execution as ex
+from manireg.curves.execution import make_units, run_cells
+
+sys.path.insert(0, str(Path(__file__).parent))
+from _study_worker import make_study  # noqa: E402
+
+NUMBERS = ["train_mse", "val_mse", "test_mse", "test_mse_clean"]
+SAME = ["learner", "n", "repeat", "seed", "steps", "best_step", "stop_reason", "n_parameters", "width", "depth",
+        "status", "config_json"]
+
+
+def _compare(a, b):
+    a = a.set_index("key").sort_index()
+    b = b.set_index("key").sort_index()
+    assert list(a.index) == list(b.index)
+    for c in SAME:
+        assert a[c].astype(object).where(a[c].notna(), None).tolist() == \
+            b[c].astype(object).where(b[c].notna(), None).tolist(), c
+    for c in NUMBERS:
+        np.testing.assert_allclose(a[c].astype(float), b[c].astype(float), rtol=1e-6, atol=1e-9, err_msg=c)
+
+
+@pytest.fixture(scope="module")
+def reference(tmp_path_factory):
+    return make_study(tmp_path_factory.mktemp("ref") / "s.sqlite").run(progress=False).rows
+
+
+def test_units_batch_net_repeats(tmp_path):
+    cells = make_study(tmp_path / "s.sqlite").cells()
+    units = make_units(cells)
+    net = [u for u in units if u[0].learner.kind == "net"]
+    assert len(net) == 3 and all(len(u) == 2 and len({c.n for c in u}) == 1 for u in net)
+    assert all(len(u) == 1 for u in units if u[0].learner.kind == "knn")
+
+
+def test_one_fit_call_per_learner_and_size(tmp_path, monkeypatch):
+    import manireg.nets.training as tr
+
+    calls = []
+    orig = tr.BatchedTrainer.fit
+
+    def spy(self, tasks):
+        calls.append(len(tasks))
+        return orig(self, tasks)
+
+    monkeypatch.setattr(tr.BatchedTrainer, "fit", spy)
+    make_study(tmp_path / "s.sqlite", learners=("net",)).run(progress=False)
+    assert calls == [2, 2, 2]
+
+
+def test_processes_match_inprocess(tmp_path, reference):
+    rows = make_study(tmp_path / "s.sqlite").run(executor="processes", n_jobs=2, progress=False).rows
+    _compare(rows, reference)
+
+
+def test_dask_local_cluster_matches_inprocess(tmp_path, reference):
+    distributed = pytest.importorskip("distributed")
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=False,
+                                  dashboard_address=None) as cluster, distributed.Client(cluster) as client:
+        rows = make_study(tmp_path / "s.sqlite").run(executor="dask", scheduler=client, progress=False).rows
+    _compare(rows, reference)
+
+
+def test_second_run_skips_everything(tmp_path):
+    study = make_study(tmp_path / "s.sqlite", learners=("knn",))
+    first = study.run(progress=False)
+    again = study.run(progress=False)
+    assert again.summary["ran"] == 0 and again.summary["skipped"] == len(first.rows) == 6
+
+
+def test_failed_cells_are_stored_and_retried_only_when_asked(tmp_path, monkeypatch):
+    from manireg.curves.learners import KNNLearner
+
+    study = make_study(tmp_path / "s.sqlite", learners=("knn",))
+
+    def broken(self, cells, data):
+        raise RuntimeError("solver diverged")
+
+    monkeypatch.setattr(KNNLearner, "run", broken)
+    res = study.run(progress=False)
+    assert (res.rows["status"] == "failed").all() and res.rows["error"].str.contains("solver diverged").all()
+    monkeypatch.undo()
+    assert study.run(progress=False).summary["ran"] == 0
+    res = study.run(progress=False, retry_failed=True)
+    assert (res.rows["status"] == "ok").all() and len(res.rows) == 6
+
+
+def test_keyboard_interrupt_keeps_finished_cells(tmp_path, monkeypatch):
+    study = make_study(tmp_path / "s.sqlite", learners=("knn",))
+    inner, count = ex.run_unit, [0]
+
+    def interrupt_third(*a, **k):
+        count[0] += 1
+        if count[0] == 3:
+            raise KeyboardInterrupt
+        return inner(*a, **k)
+
+    monkeypatch.setattr(ex, "run_unit", interrupt_third)
+    with pytest.raises(KeyboardInterrupt):
+        study.run(progress=False)
+    assert len(study.result().rows) == 2
+    monkeypatch.undo()
+    assert study.run(progress=False).summary["ran"] == 4
+
+
+def test_progress_bar_counts_cells(tmp_path, capsys):
+    make_study(tmp_path / "s.sqlite", learners=("knn",)).run(progress=True)
+    err = capsys.readouterr().err
+    assert "6/6" in err
+
+
+def test_bad_executor(tmp_path):
+    study = make_study(tmp_path / "s.sqlite", learners=("knn",))
+    with pytest.raises(ValueError, match="'executor' parameter of run_cells must be one of"):
+        study.run(executor="threads")
+    assert len(study.result().rows) == 0
+
+
+def test_result_fit_and_plan(tmp_path):
+    res = make_study(tmp_path / "s.sqlite", learners=("knn",)).run(progress=False)
+    fit = res.fit("knn", n_boot=50, metric="test_mse_clean")
+    assert np.isfinite(fit.to_dict()["exponent"])
