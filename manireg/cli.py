@@ -1,60 +1,385 @@
 """The ``manireg`` command line. Thin: it parses arguments, calls core functions and prints their results.
 
-Every command returns an exit code: 0 on success, 2 with a one-line reason on bad input.
+Commands: ``demo``, ``geometry``, ``study``, ``plan``, ``report``. Every command returns an exit code:
+0 on success, 2 with a one-line reason on bad input (never a traceback for a user error), 130 when
+interrupted (finished cells are kept in the store; running again resumes).
 """
 
 from __future__ import annotations
 
 import argparse
 import json
+import math
 import os
 import sys
+import warnings
 
-__all__ = ["main"]
+__all__ = ["main", "build_parser"]
 
 
 class UsageError(Exception):
     """Bad input from the user: printed as one line, exit code 2."""
 
 
+# ----------------------------------------------------------------------------------------------- helpers
 def _out_dir(path: str) -> str:
     try:
         os.makedirs(path, exist_ok=True)
     except OSError as exc:
         raise UsageError(f"cannot create output folder '{path}': {exc.strerror}. Pass a writable --out folder.") from None
-    if not os.access(path, os.W_OK):
-        raise UsageError(f"output folder '{path}' is not writable. Pass a writable --out folder.")
+    probe = os.path.join(path, ".manireg-write-test")
+    try:
+        with open(probe, "w") as fh:
+            fh.write("")
+        os.remove(probe)
+    except OSError as exc:
+        raise UsageError(f"output folder '{path}' is not writable ({exc.strerror}). Pass a writable --out folder.") from None
     return path
 
 
 def _write_json(path: str, data: dict) -> None:
+    from ._results import to_jsonable
+
     with open(path, "w") as fh:
-        json.dump(data, fh, indent=2, allow_nan=False)
+        json.dump(to_jsonable(data), fh, indent=2, allow_nan=False)
 
 
-def cmd_demo(args) -> int:
-    from .data import pebble_scenario
+def _progress_steps(steps, enabled: bool, desc: str):
+    """A tqdm bar over named steps; returns (callback, close)."""
+    from tqdm.auto import tqdm
 
+    bar = tqdm(total=len(steps), desc=desc, disable=not enabled, leave=False, file=sys.stderr)
+
+    def callback(name):
+        bar.set_postfix_str(name)
+        if bar.n < bar.total and getattr(callback, "started", False):
+            bar.update(1)
+        callback.started = True
+
+    def close():
+        bar.update(bar.total - bar.n)
+        bar.close()
+
+    return callback, close
+
+
+def _load(path: str, target: str | None):
+    from .data import load_table
+
+    table = load_table(path, target=target)
+    if target is not None and table.y is None:
+        raise UsageError(f"no target column in '{path}'; pass --target COL.")
+    return table
+
+
+def _geometry(X, y, *, seed: int, embed: bool, dimension=None, radius=None, progress: bool = True, n_boot: int = 200):
+    from .geometry import GEOMETRY_STEPS, describe_geometry
+
+    steps = GEOMETRY_STEPS if embed else GEOMETRY_STEPS[:-1]
+    cb, close = _progress_steps(steps, progress, "geometry")
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        geo = describe_geometry(X, y, dimension=dimension, radius=radius, embed=embed, seed=seed, callback=cb, n_boot=n_boot)
+    close()
+    return geo, sorted({str(w.message) for w in caught})
+
+
+def _print_warnings(messages):
+    for m in messages:
+        print(f"note: {m}")
+
+
+def _parse_learners(names, width_multipliers):
+    from .curves import LearnerSpec
+
+    specs = []
+    for name in names:
+        if name == "net":
+            for m in width_multipliers or [1.0]:
+                specs.append(LearnerSpec("net", params={"width_multiplier": float(m)}))
+        else:
+            specs.append(LearnerSpec(name))
+    return specs
+
+
+def _fit_and_plan(result, *, smoothness_range, target_error, floor, allow_unverified, seed):
+    """Fit every learner, run the extrapolation check and plan for the target error (or a default target).
+
+    ``floor="estimate"`` uses the known noise variance of synthetic data, else the study's noise estimate."""
+    from .curves import extrapolation_check, fit_all, plan_samples
+
+    kw = dict(smoothness=smoothness_range or result.s, dimension=result.d, ambient_dim=result.D, seed=seed)
+    if floor == "estimate":
+        nv = result.noise_variance if result.noise_variance is not None else result.noise_estimate
+        if nv is None:
+            raise UsageError("--floor estimate needs a noise estimate, and none is recorded for this study; use --floor fit.")
+        kw["noise_variance"] = float(nv)
+    fl = floor
+    if fl == "known":
+        if result.noise_variance is None:
+            raise UsageError("--floor known needs data with a known noise variance (synthetic data); use --floor estimate or fit.")
+        fl = float(result.noise_variance)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        fits = fit_all(result.rows, floor=fl, **kw)
+        checks = []
+        for f in fits:
+            if f.n_sizes >= 4:
+                checks.append(extrapolation_check(result.rows, f.learner, floor=fl, **kw))
+    # the plan: best measured learner (lowest error at the largest size)
+    measured = [f for f in fits if f.verdict == "measured"]
+    pool = measured or ([f for f in fits if math.isfinite(f.exponent) and f.exponent > 0] if allow_unverified else [])
+    plan, note = None, None
+    if not pool:
+        note = ("No plan: no learner's curve earned a measured exponent over this range "
+                "(see the verdicts); pass --allow-unverified to plan from an unverified curve anyway.")
+    else:
+        best = min(pool, key=lambda f: f.mean_errors[-1])
+        target = target_error
+        if target is None:  # default: halve the excess error at the largest size
+            target = best.floor + 0.5 * (float(best.predict(best.n_range[1])) - best.floor)
+        try:
+            plan = plan_samples(best, target, allow_unverified=allow_unverified, dimension=result.d,
+                                smoothness=result.s, input_dim=result.D)
+        except ValueError as exc:
+            note = f"No plan for target error {target:.4g}: {exc}"
+        if plan is not None and target_error is None:
+            note = "Target error not given: the plan halves the fitted excess error at the largest measured size."
+    return fits, checks, plan, note, sorted({str(w.message) for w in caught})
+
+
+def _print_fits(fits, plan, note):
+    print()
+    for f in fits:
+        print(str(f))
+    if plan is not None:
+        print()
+        print("plan: " + str(plan))
+    if note:
+        print(note)
+
+
+def _write_report(out, title, **parts):
+    from .report import compose_report, write_report
+
+    sections, summary = compose_report(title=title, **parts)
+    return write_report(out, title, sections, summary)
+
+
+# ---------------------------------------------------------------------------------------------- commands
+def cmd_geometry(args) -> int:
+    from .plots import plot_chart_counts, plot_dimension_profile, plot_spectra
+
+    table = _load(args.data, args.target)
     out = _out_dir(args.out)
-    n = 1500 if args.quick else 4000
-    reg = pebble_scenario(n, seed=args.seed)
-    m = reg.manifold
-    summary = {
-        "scenario": "pebble renderings",
-        "n_samples": int(reg.X.shape[0]),
-        "ambient_dim": int(m.ambient_dim),
-        "true_dimension": int(m.dimension),
-        "smoothness": reg.smoothness,
-        "noise_variance": reg.noise_variance,
-        "seed": args.seed,
-    }
-    _write_json(os.path.join(out, "summary.json"), summary)
-    print(f"demo scenario: {summary['n_samples']} images of {m.image_shape[0]}x{m.image_shape[1]} pixels (D = {m.ambient_dim}), "
-          f"true intrinsic dimension {m.dimension}, target smoothness s = {reg.smoothness}, noise variance {reg.noise_variance:g}")
-    print(f"summary written to {os.path.join(out, 'summary.json')}")
+    geo, notes = _geometry(table.X, table.y, seed=args.seed, embed=not args.no_embed, dimension=args.dimension,
+                           radius=args.radius, progress=not args.quiet)
+    print(str(geo))
+    _print_warnings(notes)
+    _write_json(os.path.join(out, "geometry.json"), geo.to_dict())
+    figs = {"dimension_profile.png": plot_dimension_profile(geo.dimension), "chart_spectra.png": plot_spectra(geo.atlas),
+            "chart_counts.png": plot_chart_counts(geo.chart_counts)}
+    if geo.embedding is not None:
+        from .plots import plot_embedding
+
+        rows = geo.embedding.rows
+        vals = geo.target[rows] if geo.target is not None else geo.assignments[rows]
+        figs["view.png"] = plot_embedding(geo.embedding, vals, kind="target" if geo.target is not None else "chart")
+    import matplotlib.pyplot as plt
+
+    for name, fig in figs.items():
+        fig.savefig(os.path.join(out, name), dpi=110, bbox_inches="tight")
+        plt.close(fig)
+    print(f"\nwritten: {os.path.join(out, 'geometry.json')} and {len(figs)} figures in {out}")
     return 0
 
 
+def _smoothness(args):
+    if args.smoothness_range is not None:
+        lo, hi = args.smoothness_range
+        if not (0 < lo <= hi):
+            raise UsageError(f"--smoothness-range needs 0 < A <= B; got {lo} {hi}.")
+        return 0.5 * (lo + hi), (lo, hi)
+    if args.smoothness is not None and args.smoothness <= 0:
+        raise UsageError(f"--smoothness must be > 0; got {args.smoothness}.")
+    return args.smoothness, None
+
+
+def cmd_study(args) -> int:
+    from .curves import Study
+    from .theory import sizing_table
+
+    if args.workers is not None and args.scheduler is not None:
+        raise UsageError("pass --workers N (local processes) or --scheduler ADDRESS (dask cluster), not both.")
+    if args.repeats < 1:
+        raise UsageError(f"--repeats must be >= 1; got {args.repeats}.")
+    s, s_range = _smoothness(args)
+    table = _load(args.data, args.target)
+    out = _out_dir(args.out)
+    geo = None
+    if not args.no_geometry:
+        geo, notes = _geometry(table.X, table.y, seed=args.seed, embed=not args.no_embed, progress=not args.quiet)
+        print(str(geo.dimension))
+        _print_warnings(notes)
+    d = args.dimension if args.dimension is not None else (None if geo is None else max(1.0, round(float(geo.dimension.consensus), 2)))
+    store = args.store or os.path.join(out, "study.sqlite")
+    study = Study(X=table.X, y=table.y, sizes=args.sizes, repeats=args.repeats,
+                  learners=_parse_learners(args.learners, args.width_multipliers), d=d, s=s, seed=args.seed,
+                  label=args.label, store=store)
+    extra = {"source": args.data, "noise_estimate": study.noise_estimate()}
+    if geo is not None:
+        extra["geometry"] = geo.to_dict()
+    study.store.put_study({**study.data.metadata(study.spec), **extra})
+    executor = "dask" if args.scheduler else ("processes" if args.workers else "inprocess")
+    print(f"study '{args.label}': {len(study.cells())} cells (sizes {study.data.sizes}, {args.repeats} repeats), store {study.store.path}")
+    result = study.run(executor=executor, n_jobs=args.workers, scheduler=args.scheduler, progress=not args.quiet)
+    study.store.put_study({**study.data.metadata(study.spec), **extra})  # run() refreshed the metadata; keep ours beside it
+    print(f"noise variance estimate (first-neighbour): {result.noise_estimate:.4g}")
+    fits, checks, plan, note, notes = _fit_and_plan(result, smoothness_range=s_range, target_error=args.target_error,
+                                                    floor=args.floor, allow_unverified=args.allow_unverified, seed=args.seed)
+    _print_fits(fits, plan, note)
+    _print_warnings(notes)
+    sizing = sizing_table(sorted(set(int(n) for n in result.rows["n"])), result.d, result.s, result.D)
+    paths = _write_report(out, f"manireg study: {os.path.basename(args.data)}",
+                          data={"source": args.data, "target": args.target, "n_samples": table.n_samples, "ambient_dim": table.X.shape[1]},
+                          geometry=geo, sizing=sizing, study=result, fits=fits, plan=plan, plan_note=note, extrapolation=checks,
+                          settings={"seed": args.seed, "sizes": study.data.sizes, "repeats": args.repeats, "learners": args.learners,
+                                    "width_multipliers": args.width_multipliers, "smoothness": s_range or s, "dimension": result.d,
+                                    "dimension_source": result.d_source, "floor": args.floor, "store": study.store.path})
+    print(f"\nreport: {paths['html']}\nsummary: {paths['summary']}")
+    return 0
+
+
+def cmd_plan(args) -> int:
+    from .curves import Study, fit_exponent, plan_samples
+    from .theory import ambient_exponent, regression_exponent, sizing_table
+
+    if args.target_error is not None and args.target_error <= 0:
+        raise UsageError(f"--target-error must be > 0; got {args.target_error}.")
+    if args.from_store:
+        if not os.path.exists(args.from_store):
+            raise UsageError(f"no store at '{args.from_store}'. Pass the --store file a study was run with.")
+        result = Study.from_store(args.from_store, args.study)
+        d = args.dimension if args.dimension is not None else result.d
+        s = args.smoothness if args.smoothness is not None else result.s
+        learners = sorted(set(result.rows["learner"]))
+        learner = args.learner or (learners[0] if len(learners) == 1 else None)
+        if learner is None:
+            raise UsageError(f"the store holds learners {learners}; pass --learner NAME.")
+        kw = {}
+        fl = args.floor
+        if fl == "known":
+            fl = result.noise_variance
+            if fl is None:
+                raise UsageError("--floor known needs synthetic data with a known noise variance; use --floor estimate or fit.")
+        elif fl == "estimate":
+            nv = result.noise_variance if result.noise_variance is not None else result.noise_estimate
+            if nv is None:
+                raise UsageError("no noise estimate is recorded in this store; use --floor fit.")
+            kw["noise_variance"] = float(nv)
+        fit = fit_exponent(result.rows, learner, floor=fl, smoothness=s, dimension=d, ambient_dim=result.D, seed=args.seed, **kw)
+        print(str(fit))
+        if args.target_error is None:
+            raise UsageError("pass --target-error e to plan from the stored curve.")
+        plan = plan_samples(fit, args.target_error, allow_unverified=args.allow_unverified, dimension=d, smoothness=s, input_dim=result.D)
+        print("\nplan: " + str(plan))
+        if plan.architecture:
+            a = plan.architecture
+            print(f"network at n = {plan.architecture_n}: depth {a['depth']}, width {a['width']}, nonzero budget {a['nonzero_budget']}, "
+                  f"{a['n_parameters']} parameters")
+        return 0
+    if args.dimension is None or args.smoothness is None:
+        raise UsageError("pass --dimension d and --smoothness s (or --from-store FILE with a finished study).")
+    D = args.input_dim if args.input_dim is not None else max(1, int(math.ceil(args.dimension)))
+    if D < args.dimension:
+        raise UsageError(f"--input-dim ({D}) must be >= --dimension ({args.dimension}).")
+    b = regression_exponent(args.dimension, args.smoothness)
+    print(f"predicted exponent 2s/(2s+d) = {b:.4f} (d = {args.dimension:g}, s = {args.smoothness:g})"
+          + (f"; ambient 2s/(2s+D) = {ambient_exponent(D, args.smoothness):.4f} (D = {D})" if args.input_dim else ""))
+    print(f"error ~ C n^-{b:.3f}: halving the error needs {2 ** (1 / b):.3g}x the samples, a tenth needs {10 ** (1 / b):.3g}x.")
+    if args.target_error is not None:
+        print("the constant C is not known without a measured curve: run a study and use --from-store to turn "
+              f"--target-error {args.target_error:g} into a number of samples with an interval.")
+    table = sizing_table(args.n if args.n else [1e2, 1e3, 1e4, 1e5], args.dimension, args.smoothness, D)
+    print()
+    print(table.to_frame().to_string(index=False, float_format=lambda v: f"{v:.4g}"))
+    return 0
+
+
+def cmd_report(args) -> int:
+    from .curves import Study
+    from .curves.store import ResultStore
+    from .theory import sizing_table
+
+    if not os.path.exists(args.store):
+        raise UsageError(f"no store at '{args.store}'. Pass the --store file a study was run with.")
+    out = _out_dir(args.out)
+    result = Study.from_store(args.store, args.study)
+    if not len(result.rows):
+        raise UsageError(f"study '{result.label}' in '{args.store}' has no rows yet; run the study first.")
+    meta = ResultStore(args.store).study_meta(result.label)
+    s_range = tuple(args.smoothness_range) if args.smoothness_range else None
+    fits, checks, plan, note, notes = _fit_and_plan(result, smoothness_range=s_range, target_error=args.target_error,
+                                                    floor=args.floor, allow_unverified=args.allow_unverified, seed=args.seed)
+    _print_fits(fits, plan, note)
+    _print_warnings(notes)
+    sizing = sizing_table(sorted(set(int(n) for n in result.rows["n"])), result.d, result.s, result.D)
+    paths = _write_report(out, f"manireg study '{result.label}' (rebuilt from its store)",
+                          data={"source": meta.get("source", "(recorded in the store)"), "n_samples": meta.get("n_total"),
+                                "ambient_dim": result.D, "fingerprint": meta.get("fingerprint")},
+                          geometry=meta.get("geometry"), sizing=sizing, study=result, fits=fits, plan=plan, plan_note=note,
+                          extrapolation=checks, settings={"store": args.store, "spec": result.spec, "floor": args.floor, "seed": args.seed})
+    print(f"\nreport: {paths['html']}\nsummary: {paths['summary']}")
+    return 0
+
+
+def cmd_demo(args) -> int:
+    from .curves import LearnerSpec, Study
+    from .data import pebble_scenario
+    from .theory import sizing_table
+
+    out = _out_dir(args.out)
+    if args.quick:
+        n, sizes, repeats, embed, n_boot = 1400, [80, 160, 320, 640, 1000], 3, False, 100
+        net = {"max_steps": 1500}
+    else:
+        n, sizes, repeats, embed, n_boot = 4000, [125, 250, 500, 1000, 2000], 5, True, 200
+        net = {}
+    reg = pebble_scenario(n, seed=args.seed)
+    m = reg.manifold
+    print(f"demo scenario: {n} renderings of the pebble, {m.image_shape[0]}x{m.image_shape[1]} pixels (D = {m.ambient_dim}); "
+          f"truth: d = {m.dimension}, target smoothness s = {reg.smoothness}, noise variance {reg.noise_variance:g}")
+    geo, notes = _geometry(reg.X, reg.y, seed=args.seed, embed=embed, progress=not args.quiet, n_boot=n_boot)
+    print()
+    print(str(geo))
+    _print_warnings(notes)
+    d_hat = max(1.0, round(float(geo.dimension.consensus), 2))
+    store = os.path.join(out, "study.sqlite")
+    study = Study.from_regression_sample(reg, sizes=sizes, repeats=repeats, d=d_hat, seed=args.seed, label="demo",
+                                         learners=[LearnerSpec("net", params=net), LearnerSpec("knn")], store=store)
+    print(f"\nstudy: {len(study.cells())} cells (sizes {sizes}, {repeats} repeats, learners net and knn), "
+          f"sized with the estimated d = {d_hat:g} and s = {reg.smoothness}; store {study.store.path}")
+    result = study.run(progress=not args.quiet)
+    study.store.put_study({**study.data.metadata(study.spec), "noise_estimate": study.noise_estimate(), "geometry": geo.to_dict(),
+                           "source": "built-in pebble scenario"})
+    fits, checks, plan, note, fnotes = _fit_and_plan(result, smoothness_range=None, target_error=None, floor="known",
+                                                     allow_unverified=False, seed=args.seed)
+    _print_fits(fits, plan, note)
+    _print_warnings(fnotes)
+    sizing = sizing_table(sizes, d_hat, reg.smoothness, m.ambient_dim)
+    paths = _write_report(out, "manireg demo: pebble renderings",
+                          data={"source": "built-in pebble scenario (manireg.data.pebble_scenario)", "n_samples": n,
+                                "ambient_dim": m.ambient_dim, "true_dimension": m.dimension, "smoothness": reg.smoothness,
+                                "noise_variance": reg.noise_variance},
+                          geometry=geo, sizing=sizing, study=result, fits=fits, plan=plan, plan_note=note, extrapolation=checks,
+                          settings={"seed": args.seed, "quick": args.quick, "sizes": sizes, "repeats": repeats,
+                                    "dimension_used": d_hat, "floor": "known noise variance", "store": study.store.path},
+                          true_dimension=m.dimension)
+    print(f"\nreport: {paths['html']}\nsummary: {paths['summary']}")
+    return 0
+
+
+# ------------------------------------------------------------------------------------------------ parser
 def build_parser() -> argparse.ArgumentParser:
     from . import __version__
 
@@ -64,11 +389,73 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"manireg {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
-    p = sub.add_parser("demo", help="run the whole job on the built-in pebble-image scenario")
-    p.add_argument("--out", default="manireg-out/demo", help="folder for the report (default: %(default)s)")
-    p.add_argument("--quick", action="store_true", help="small settings, about a minute")
-    p.add_argument("--seed", type=int, default=0, help="seed of every random step (default: %(default)s)")
+
+    def common(p, out_default):
+        p.add_argument("--out", default=out_default, help="output folder (default: %(default)s)")
+        p.add_argument("--seed", type=int, default=0, help="seed of every random step (default: %(default)s)")
+        p.add_argument("--quiet", action="store_true", help="no progress bars")
+
+    p = sub.add_parser("demo", help="the whole job on the built-in pebble-image scenario, with a report")
+    common(p, "manireg-out/demo")
+    p.add_argument("--quick", action="store_true", help="small settings (about a minute)")
     p.set_defaults(func=cmd_demo)
+
+    p = sub.add_parser("geometry", help="intrinsic dimension, charts, reach and curvature of a data file")
+    p.add_argument("data", help="CSV, Parquet, NPZ or NPY file")
+    p.add_argument("--target", help="target column (used to colour the 2-D view; left out of the geometry)")
+    p.add_argument("--dimension", type=int, help="intrinsic dimension for charts and reach (default: the consensus estimate)")
+    p.add_argument("--radius", type=float, help="chart radius (default: from the reach estimate)")
+    p.add_argument("--no-embed", action="store_true", help="skip the 2-D view (UMAP)")
+    common(p, "manireg-out/geometry")
+    p.set_defaults(func=cmd_geometry)
+
+    p = sub.add_parser("study", help="run or resume a learning-curve study on a data file and write its report")
+    p.add_argument("data", help="CSV, Parquet, NPZ or NPY file")
+    p.add_argument("--target", required=True, help="target column")
+    g = p.add_mutually_exclusive_group()
+    g.add_argument("--smoothness", type=float, help="Hölder smoothness s of the target (default 1)")
+    g.add_argument("--smoothness-range", type=float, nargs=2, metavar=("A", "B"), help="a range of s: predictions become intervals")
+    p.add_argument("--dimension", type=float, help="intrinsic dimension d (default: the consensus estimate)")
+    p.add_argument("--sizes", type=int, nargs="+", help="training sizes (default: a geometric grid)")
+    p.add_argument("--repeats", type=int, default=5, help="repeats per size (default: %(default)s)")
+    p.add_argument("--learners", nargs="+", default=["net", "knn"], help="net, knn, kernel_ridge (default: net knn)")
+    p.add_argument("--width-multipliers", type=float, nargs="+", help="several nets with these width multipliers (a capacity sweep)")
+    p.add_argument("--store", help="SQLite store (default: OUT/study.sqlite); re-running resumes")
+    p.add_argument("--label", default="study", help="study name in the store (default: %(default)s)")
+    g = p.add_mutually_exclusive_group()
+    g.add_argument("--workers", type=int, help="local worker processes")
+    g.add_argument("--scheduler", help="address of a dask.distributed scheduler")
+    p.add_argument("--floor", default="estimate", choices=["estimate", "fit", "none"], help="error floor of the fits (default: %(default)s)")
+    p.add_argument("--target-error", type=float, help="plan the samples for this test error")
+    p.add_argument("--allow-unverified", action="store_true", help="plan even from a curve without a measured exponent")
+    p.add_argument("--no-geometry", action="store_true", help="skip the geometry read-out (then give --dimension)")
+    p.add_argument("--no-embed", action="store_true", help="skip the 2-D view")
+    common(p, "manireg-out/study")
+    p.set_defaults(func=cmd_study)
+
+    p = sub.add_parser("plan", help="network sizing and samples for a target error")
+    p.add_argument("--dimension", type=float, help="intrinsic dimension d")
+    p.add_argument("--smoothness", type=float, help="Hölder smoothness s")
+    p.add_argument("--target-error", type=float, help="test error to reach")
+    p.add_argument("--input-dim", type=int, help="ambient dimension D (for sizing and the ambient exponent)")
+    p.add_argument("--n", type=float, nargs="+", help="sample sizes for the sizing table (default 1e2 1e3 1e4 1e5)")
+    p.add_argument("--from-store", help="plan from a finished study's measured curve")
+    p.add_argument("--study", help="study label in the store")
+    p.add_argument("--learner", help="learner whose curve to use")
+    p.add_argument("--floor", default="estimate", choices=["estimate", "fit", "none", "known"])
+    p.add_argument("--allow-unverified", action="store_true")
+    p.add_argument("--seed", type=int, default=0)
+    p.set_defaults(func=cmd_plan)
+
+    p = sub.add_parser("report", help="rebuild the report of a study from its store, without training")
+    p.add_argument("store", help="the study's SQLite store")
+    p.add_argument("--study", help="study label (when the store holds several)")
+    p.add_argument("--target-error", type=float)
+    p.add_argument("--smoothness-range", type=float, nargs=2, metavar=("A", "B"))
+    p.add_argument("--floor", default="estimate", choices=["estimate", "fit", "none", "known"])
+    p.add_argument("--allow-unverified", action="store_true")
+    common(p, "manireg-out/report")
+    p.set_defaults(func=cmd_report)
     return parser
 
 
@@ -78,16 +465,18 @@ def main(argv=None) -> int:
     if not getattr(args, "func", None):
         parser.print_help()
         return 2
+    if getattr(args, "floor", None) == "none":
+        args.floor = None
     try:
         return args.func(args)
-    except UsageError as exc:
-        print(f"manireg {args.command}: error: {exc}", file=sys.stderr)
-        return 2
-    except ValueError as exc:  # validation errors from the core name the problem and the fix
-        print(f"manireg {args.command}: error: {exc}", file=sys.stderr)
+    except (UsageError, ValueError, FileNotFoundError) as exc:
+        # validation errors from the core name the problem and the fix; keep them to one line
+        msg = " ".join(str(exc).split())
+        print(f"manireg {args.command}: error: {msg}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
-        print(f"manireg {args.command}: interrupted; finished work is kept.", file=sys.stderr)
+        print(f"manireg {args.command}: interrupted; finished cells are kept in the store, run the same command again to resume.",
+              file=sys.stderr)
         return 130
 
 

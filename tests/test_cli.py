@@ -1,17 +1,139 @@
-"""The command line: each command end to end on small settings."""
+"""The command line: each command end to end on small settings, the report's contents, bad input."""
 
 import json
+import os
+import re
+import signal
+import sqlite3
 import subprocess
 import sys
+import time
+
+import numpy as np
+import pandas as pd
+import pytest
 
 from manireg.cli import main
 
+ENV = {**os.environ, "PYTHONWARNINGS": "ignore"}
 
-def test_demo_quick_writes_summary(tmp_path):
-    rc = main(["demo", "--quick", "--out", str(tmp_path)])
-    assert rc == 0
+
+def _cli(*args, timeout=600):
+    return subprocess.run([sys.executable, "-m", "manireg", *args], capture_output=True, text=True, timeout=timeout, env=ENV)
+
+
+@pytest.fixture(scope="module")
+def sphere_csv(tmp_path_factory):
+    """A 2-sphere in R^8 with a Lipschitz target (s = 1), written as CSV."""
+    from manireg.data import make_regression, sphere
+
+    reg = make_regression(sphere(700, 2, ambient_dim=8, seed=3), 1.0, noise_std=0.1, seed=4)
+    df = pd.DataFrame(reg.X, columns=[f"x{j}" for j in range(8)])
+    df["y"] = reg.y
+    path = tmp_path_factory.mktemp("data") / "sphere.csv"
+    df.to_csv(path, index=False)
+    return path
+
+
+@pytest.fixture(scope="module")
+def finished_study(sphere_csv, tmp_path_factory):
+    out = tmp_path_factory.mktemp("study")
+    r = _cli("study", str(sphere_csv), "--target", "y", "--sizes", "40", "80", "160", "320", "--repeats", "3",
+             "--learners", "knn", "net", "--no-embed", "--quiet", "--out", str(out), "--smoothness", "1")
+    assert r.returncode == 0, r.stderr
+    return out, r
+
+
+def test_study_writes_report_consistent_with_core(finished_study):
+    out, r = finished_study
+    summary = json.loads((out / "summary.json").read_text())
+    for key in ("data", "geometry", "sizing", "study", "rows", "exponents", "optimisation_limited", "settings", "versions", "note", "figures"):
+        assert key in summary, key
+    # the report's exponents equal the core fit on the same stored rows with the same settings
+    from manireg.curves import Study
+
+    res = Study.from_store(out / "study.sqlite")
+    core = res.fit("knn", floor="estimate", smoothness=1.0, seed=0)
+    rep = summary["exponents"]["knn"]
+    assert rep["exponent"] == pytest.approx(core.exponent, rel=1e-9)
+    assert rep["verdict"] == core.verdict and rep["interval"] == pytest.approx(list(core.interval))
+    assert len(summary["rows"]) == len(res.rows) == 2 * 4 * 3
+    # every exponent shown with its interval and verdict in the printed summary
+    assert re.search(r"knn: exponent [0-9.]+ \[95% interval [0-9.]+, [0-9.]+\] - verdict: ", r.stdout)
+    html = (out / "report.html").read_text()
+    for name in summary["figures"]:
+        assert f"id='fig-{name[:-4]}'" in html
+        assert (out / "figures" / name).exists()
+    assert "asymptotic statements" in html and "data:image/png;base64," in html
+
+
+def test_report_rebuilds_from_store_without_training(finished_study, tmp_path):
+    out, _ = finished_study
+    before = sqlite3.connect(out / "study.sqlite").execute("SELECT COUNT(*) FROM cells").fetchone()[0]
+    assert main(["report", str(out / "study.sqlite"), "--out", str(tmp_path), "--quiet"]) == 0
+    after = sqlite3.connect(out / "study.sqlite").execute("SELECT COUNT(*) FROM cells").fetchone()[0]
+    assert before == after  # nothing trained, nothing added
+    a = json.loads((out / "summary.json").read_text())["exponents"]["knn"]
+    b = json.loads((tmp_path / "summary.json").read_text())["exponents"]["knn"]
+    assert a["exponent"] == pytest.approx(b["exponent"]) and a["verdict"] == b["verdict"]
+
+
+def test_plan_from_store_and_from_rules(finished_study, capsys):
+    out, _ = finished_study
+    assert main(["plan", "--dimension", "2", "--smoothness", "1", "--input-dim", "64"]) == 0
+    text = capsys.readouterr().out
+    # 2s/(2s+d) = 0.5 for s = 1, d = 2 (REFERENCES.md exponent table); halving the error takes 2^(1/0.5) = 4x
+    assert "2s/(2s+d) = 0.5000" in text and "needs 4x the samples" in text
+    rc = main(["plan", "--from-store", str(out / "study.sqlite"), "--learner", "knn", "--target-error", "0.3", "--allow-unverified"])
+    text = capsys.readouterr().out
+    assert rc == 0 and "samples for test error 0.3" in text
+
+
+def test_geometry_command_on_csv(sphere_csv, tmp_path, capsys):
+    assert main(["geometry", str(sphere_csv), "--target", "y", "--no-embed", "--quiet", "--out", str(tmp_path)]) == 0
+    text = capsys.readouterr().out
+    geo = json.loads((tmp_path / "geometry.json").read_text())
+    assert 1.5 < geo["dimension"]["consensus"] < 2.6  # a 2-sphere
+    assert "consensus" in text and (tmp_path / "dimension_profile.png").exists()
+
+
+def test_demo_quick(tmp_path):
+    r = _cli("demo", "--quick", "--quiet", "--out", str(tmp_path))
+    assert r.returncode == 0, r.stderr
     summary = json.loads((tmp_path / "summary.json").read_text())
-    assert summary["true_dimension"] == 2 and summary["ambient_dim"] == 1024
+    assert summary["data"]["true_dimension"] == 2 and summary["data"]["ambient_dim"] == 1024
+    assert set(summary["exponents"]) == {"net", "knn"}
+    assert "report:" in r.stdout and (tmp_path / "report.html").exists()
+
+
+@pytest.mark.parametrize(
+    "args,message",
+    [
+        (["geometry", "nope.csv"], "no such file"),
+        (["study", "{csv}", "--target", "price"], "target column 'price' is not in"),
+        (["study", "{csv}", "--target", "y", "--sizes", "100", "100000", "--no-geometry", "--dimension", "2"], "size"),
+        (["study", "{nan}", "--target", "y"], "missing or infinite"),
+        (["study", "{csv}", "--target", "y", "--repeats", "0"], "--repeats must be >= 1"),
+        (["plan", "--dimension", "2"], "pass --dimension d and --smoothness s"),
+        (["report", "missing.sqlite"], "no store at"),
+    ],
+)
+def test_bad_input_exit_2_one_line(args, message, sphere_csv, tmp_path, capsys):
+    nan_csv = tmp_path / "nan.csv"
+    pd.DataFrame({"a": [1.0, np.nan, 2.0], "y": [1.0, 2.0, 3.0]}).to_csv(nan_csv, index=False)
+    args = [a.format(csv=sphere_csv, nan=nan_csv) for a in args] + (["--out", str(tmp_path / "o")] if args[0] not in ("plan",) else [])
+    rc = main(args)
+    err = capsys.readouterr().err
+    assert rc == 2
+    assert message in err and "Traceback" not in err
+    assert err.count("\n") == 1
+
+
+def test_unwritable_out_folder(tmp_path, capsys):
+    blocker = tmp_path / "file"
+    blocker.write_text("x")
+    assert main(["demo", "--quick", "--out", str(blocker / "sub")]) == 2
+    assert "cannot create output folder" in capsys.readouterr().err
 
 
 def test_no_command_prints_help(capsys):
@@ -19,15 +141,32 @@ def test_no_command_prints_help(capsys):
     assert "usage" in capsys.readouterr().out
 
 
-def test_unwritable_out_folder(tmp_path, capsys):
-    blocker = tmp_path / "file"
-    blocker.write_text("x")
-    rc = main(["demo", "--quick", "--out", str(blocker / "sub")])
-    assert rc == 2
-    err = capsys.readouterr().err
-    assert "cannot create output folder" in err and "Traceback" not in err
-
-
-def test_help_via_subprocess():
-    r = subprocess.run([sys.executable, "-m", "manireg", "--help"], capture_output=True, text=True)
-    assert r.returncode == 0 and "demo" in r.stdout
+def test_interrupt_then_resume(sphere_csv, tmp_path):
+    out = tmp_path / "run"
+    args = [sys.executable, "-m", "manireg", "study", str(sphere_csv), "--target", "y", "--sizes", "40", "80", "160", "320",
+            "--repeats", "3", "--learners", "net", "knn", "--no-geometry", "--dimension", "2", "--quiet", "--out", str(out)]
+    proc = subprocess.Popen(args, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=ENV)
+    store = out / "study.sqlite"
+    deadline = time.time() + 300
+    n_rows = 0
+    while time.time() < deadline and proc.poll() is None:
+        if store.exists():
+            try:
+                n_rows = sqlite3.connect(store, timeout=5).execute("SELECT COUNT(*) FROM cells").fetchone()[0]
+            except sqlite3.OperationalError:
+                n_rows = 0
+            if n_rows >= 1:
+                break
+        time.sleep(0.05)
+    if proc.poll() is not None:
+        pytest.skip("the study finished before it could be interrupted")
+    proc.send_signal(signal.SIGINT)
+    _, err = proc.communicate(timeout=120)
+    assert proc.returncode == 130, err
+    assert "interrupted" in err and "Traceback" not in err
+    kept = sqlite3.connect(store).execute("SELECT COUNT(*) FROM cells").fetchone()[0]
+    assert kept >= 1
+    r = subprocess.run(args, capture_output=True, text=True, timeout=600, env=ENV)
+    assert r.returncode == 0, r.stderr
+    keys = [k for (k,) in sqlite3.connect(store).execute("SELECT key FROM cells")]
+    assert len(keys) == len(set(keys)) == 2 * 4 * 3  # every cell once

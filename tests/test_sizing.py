@@ -88,3 +88,27 @@ def test_bad_inputs():
     with pytest.raises(ValueError, match=r"'constants' parameter of size_network must be a SizingConstants"):
         size_network(100, 1, 1, input_dim=3, constants={"c_width": 1})
     assert dense_parameter_count(3, 2, 4) == 4 * 4 + 5 * 4 + 5
+
+
+def test_sizing_table_matches_size_network_and_rates():
+    import numpy as np
+
+    from manireg.plots import plot_sizing
+    from manireg.theory import size_network, sizing_table
+
+    t = sizing_table(np.geomspace(100, 1e5, 4), d=2, s=1, input_dim=64)
+    f = t.to_frame()
+    assert list(f["width"]) == [size_network(n, 2, 1, 64).width for n in f["n"]]
+    # predicted error n^(-2s/(2s+d)) with 2s/(2s+d) = 0.5 for s=1, d=2 (REFERENCES.md exponent table)
+    np.testing.assert_allclose(f["predicted_error"], f["n"] ** -0.5)
+    np.testing.assert_allclose(f["predicted_error_ambient"], f["n"] ** (-2 / 66))
+    assert plot_sizing(t).axes
+
+
+def test_sizing_table_rejects_empty_grid():
+    import pytest
+
+    from manireg.theory import sizing_table
+
+    with pytest.raises(ValueError, match="at least one sample size"):
+        sizing_table([], 2, 1, 10)

@@ -56,7 +56,8 @@ class LearnerSpec:
         (``"net-w0.5"``, ``"net-w2"``).
     params : dict
         ``"net"``: ``width_multiplier`` (default 1.0), ``constants`` (dict of
-        :class:`manireg.theory.SizingConstants` fields), ``output_bound`` (None: no clipping) and any
+        :class:`manireg.theory.SizingConstants` fields), ``output_bound`` ("auto", the default: 1.1 x the
+        largest |y| outside the test set; None: no clipping; or a number) and any
         :class:`manireg.nets.training.TrainConfig` field (``learning_rate``, ``max_steps``, ...).
         ``"knn"``: ``c`` (default 1.0) or a fixed ``k``. ``"kernel_ridge"``: ``c_bandwidth`` (1.0),
         ``c_ridge`` (1e-3), ``max_exact`` (3000).
@@ -178,6 +179,9 @@ class NetLearner(Learner):
         wm = params.get("width_multiplier", 1.0)
         if isinstance(wm, bool) or not isinstance(wm, (int, float)) or not (math.isfinite(wm) and wm > 0):
             raise ValueError(f"the 'width_multiplier' parameter of LearnerSpec('net') must be a real > 0; got {wm!r}.")
+        ob = params.get("output_bound", "auto")
+        if not (ob is None or ob == "auto" or (isinstance(ob, (int, float)) and not isinstance(ob, bool) and ob > 0)):
+            raise ValueError(f"the 'output_bound' parameter of LearnerSpec('net') must be 'auto', None or a real > 0; got {ob!r}.")
 
     @classmethod
     def default_name(cls, params) -> str:
@@ -195,10 +199,10 @@ class NetLearner(Learner):
 
     def resolve(self, context) -> dict:
         train, constants = self._configs()
-        ob = self.spec.params.get("output_bound")
+        ob = self.spec.params.get("output_bound", "auto")
         return {
             "width_multiplier": float(self.spec.params.get("width_multiplier", 1.0)),
-            "output_bound": None if ob is None else float(ob),
+            "output_bound": ob if ob in (None, "auto") else float(ob),
             "constants": dataclasses.asdict(constants),
             "train": dataclasses.asdict(train),
         }
@@ -209,7 +213,20 @@ class NetLearner(Learner):
         train, constants = self._configs()
         return size_network(n, data.d, data.s, data.D, constants=constants,
                             width_multiplier=float(self.spec.params.get("width_multiplier", 1.0)),
-                            output_bound=self.spec.params.get("output_bound"))
+                            output_bound=self._output_bound(data))
+
+    def _output_bound(self, data):
+        """The clipping bound: ``"auto"`` (default) is 1.1 x the largest |y| outside the test set (the theory's
+        estimator clips its output at a bound on the target; without it a small-n net can extrapolate far
+        beyond the data); ``None`` means no clipping; a number is used as given."""
+        ob = self.spec.params.get("output_bound", "auto")
+        if ob is None:
+            return None
+        if ob == "auto":
+            pool = np.setdiff1d(np.arange(len(data.y)), data.test_idx)
+            top = float(np.abs(data.y[pool]).max()) if len(pool) else 0.0
+            return 1.1 * top if top > 0 else 1.0
+        return float(ob)
 
     def run(self, cells, data) -> list:
         from manireg.nets.training import BatchedTrainer, ReplicaTask

@@ -21,6 +21,8 @@ import dataclasses
 import json
 import os
 import tempfile
+
+import numpy as np
 from dataclasses import dataclass, field
 
 from manireg._results import ResultMixin
@@ -51,6 +53,10 @@ class StudyResult(ResultMixin):
         Where the rows live.
     noise_variance : float or None
         Known label-noise variance (synthetic data), else None.
+    noise_estimate : float or None
+        Label-noise variance estimated from the data outside the test set
+        (:func:`manireg.curves.noise.noise_variance`, first-neighbour estimator); the floor of
+        ``floor="estimate"`` fits when no variance is known.
     d_source : str
         "given", "generator" or "estimated".
     summary : dict
@@ -65,6 +71,7 @@ class StudyResult(ResultMixin):
     label: str
     store_path: str
     noise_variance: float | None = None
+    noise_estimate: float | None = None
     d_source: str = "given"
     summary: dict = field(default_factory=dict)
     _skip_in_dict = ("rows",)
@@ -81,15 +88,18 @@ class StudyResult(ResultMixin):
         kwargs.setdefault("smoothness", self.s)
         kwargs.setdefault("dimension", self.d)
         kwargs.setdefault("ambient_dim", self.D)
-        if kwargs.get("floor") == "estimate" and kwargs.get("noise_variance") is None and self.noise_variance is not None:
-            kwargs["noise_variance"] = self.noise_variance
+        if kwargs.get("floor") == "estimate" and kwargs.get("noise_variance") is None:
+            known = self.noise_variance if self.noise_variance is not None else self.noise_estimate
+            if known is not None:
+                kwargs["noise_variance"] = known
         return kwargs
 
     def fit(self, learner=None, **kwargs):
         """Fitted exponent of one learner (:func:`manireg.curves.fitting.fit_exponent`).
 
         ``smoothness``, ``dimension`` and ``ambient_dim`` default to the study's s, d and D; with
-        ``floor="estimate"`` the known noise variance of synthetic data is used when none is given.
+        ``floor="estimate"`` the known noise variance of synthetic data is used when none is given, else
+        the study's noise estimate.
         With several learners and ``learner=None`` this returns :meth:`fit_all`.
 
         References
@@ -199,17 +209,32 @@ class Study:
         finished; calling ``run`` again resumes.
         """
         cells = self.cells()
-        self.store.put_study(self.data.metadata(self.spec))
+        self.store.put_study({**self.data.metadata(self.spec), "noise_estimate": self.noise_estimate()})
         summary = run_cells(cells, self.data, self.store, executor=executor, n_jobs=n_jobs, scheduler=scheduler,
                             progress=progress, retry_failed=retry_failed, torch_threads=torch_threads)
         return self.result(summary)
+
+    def noise_estimate(self) -> float:
+        """Label-noise variance estimated from the rows outside the test set (first-neighbour estimator of
+        Devroye, Györfi, Lugosi and Walk 2018; see :func:`manireg.curves.noise.noise_variance`). Cached."""
+        if getattr(self, "_noise", None) is None:
+            import warnings
+
+            from manireg.curves.noise import noise_variance
+
+            pool = np.setdiff1d(np.arange(len(self.data.y)), self.data.test_idx)
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")  # duplicates are reported by the geometry read-out
+                self._noise = float(noise_variance(self.data.X[pool], self.data.y[pool]).value)
+        return self._noise
 
     def result(self, summary=None) -> StudyResult:
         """The rows stored so far for this study's cells (no training)."""
         rows = self.store.rows(self.data.label, keys=[c.key for c in self.cells()])
         return StudyResult(rows=rows, spec=self.spec.to_dict(), d=self.data.d, s=self.data.s, D=self.data.D,
                            label=self.data.label, store_path=self.store.path,
-                           noise_variance=self.data.noise_variance, d_source=self.data.d_source,
+                           noise_variance=self.data.noise_variance, noise_estimate=self.noise_estimate(),
+                           d_source=self.data.d_source,
                            summary=dict(summary or {}))
 
     @staticmethod
@@ -246,6 +271,7 @@ class Study:
             rows = rows[same.to_numpy(dtype=bool)].reset_index(drop=True)
         return StudyResult(rows=rows, spec=meta.get("spec") or {}, d=meta.get("d"), s=meta.get("s"), D=meta.get("D"),
                            label=study, store_path=path, noise_variance=meta.get("noise_variance"),
+                           noise_estimate=meta.get("noise_estimate"),
                            d_source=meta.get("d_source", "given"))
 
     def __repr__(self):

@@ -10,7 +10,14 @@ from manireg.theory.rates import (
     predicted_error,
     regression_exponent,
 )
-from manireg.theory.sizing import ArchitectureSpec, SizingConstants, dense_parameter_count, size_network
+from manireg.theory.sizing import (
+    ArchitectureSpec,
+    SizingConstants,
+    SizingTable,
+    dense_parameter_count,
+    size_network,
+    sizing_table,
+)
 
 __all__ = [
     "regression_exponent",
@@ -24,5 +31,7 @@ __all__ = [
     "SizingConstants",
     "ArchitectureSpec",
     "size_network",
+    "SizingTable",
+    "sizing_table",
     "dense_parameter_count",
 ]

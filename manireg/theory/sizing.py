@@ -24,7 +24,7 @@ from manireg._results import ResultMixin
 from manireg._validation import check_float, check_int
 from manireg.theory.rates import regression_exponent
 
-__all__ = ["SizingConstants", "ArchitectureSpec", "size_network", "dense_parameter_count"]
+__all__ = ["SizingConstants", "ArchitectureSpec", "SizingTable", "size_network", "sizing_table", "dense_parameter_count"]
 
 
 @dataclass(frozen=True)
@@ -298,3 +298,44 @@ def size_network(n, d, s, input_dim, constants=None, width_multiplier=1.0, outpu
         d=float(d),
         s=float(s),
     )
+
+
+@dataclass
+class SizingTable(ResultMixin):
+    """The sizing rule evaluated over a grid of n, with the predicted errors beside it.
+
+    ``predicted_error`` is ``n^(-2s/(2s+d))`` and ``predicted_error_ambient`` is ``n^(-2s/(2s+D))``, both
+    without constants or log factors (reference lines, not forecasts).
+    """
+
+    d: float
+    s: float
+    input_dim: int
+    exponent: float
+    ambient_exponent: float
+    specs: list
+
+    def to_frame(self):
+        import pandas as pd
+
+        rows = []
+        for spec in self.specs:
+            rows.append({
+                "n": spec.n, "depth": spec.depth, "width": spec.width, "nonzero_budget": spec.nonzero_budget,
+                "n_parameters": spec.n_parameters,
+                "predicted_error": spec.n ** (-self.exponent),
+                "predicted_error_ambient": spec.n ** (-self.ambient_exponent),
+            })
+        return pd.DataFrame(rows)
+
+
+def sizing_table(n_grid, d, s, input_dim, constants=None, width_multiplier=1.0) -> SizingTable:
+    """:func:`size_network` at every n of ``n_grid`` (e.g. ``np.geomspace(1e2, 1e5, 13)``)."""
+    from manireg.theory.rates import ambient_exponent
+
+    grid = np.atleast_1d(np.asarray(n_grid, dtype=float))
+    if grid.size == 0:
+        raise ValueError("the 'n_grid' parameter of sizing_table must hold at least one sample size; got an empty grid.")
+    specs = [size_network(float(n), d, s, input_dim, constants=constants, width_multiplier=width_multiplier) for n in grid]
+    return SizingTable(float(d), float(s), int(input_dim), float(regression_exponent(d, s)),
+                       float(ambient_exponent(input_dim, s)), specs)
