@@ -1,0 +1,187 @@
+"""Shared pieces of the notebook panels: the panel base class and figure handling.
+
+A panel is an ``ipywidgets.VBox`` that builds its controls and an ``Output`` once, assigns ``children`` as
+one tuple and observes each control with one update method. An update method collects the control values,
+calls a core function through :meth:`Panel._call` (inside ``with self.out:``), keeps the result on the panel
+and redraws. Exceptions never reach the widget event loop: their text goes to the panel's status line, to
+``self.error`` and (in a live kernel) to the output area. Warnings raised by the core are collected into the
+status line as well.
+
+Figures are drawn by the figure functions of :mod:`manireg.plots` on a ``matplotlib.figure.Figure`` that is
+not registered with pyplot (so panels leak no pyplot state and can draw from a worker thread) and shown as
+PNG bytes in an ``ipywidgets.Image``.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import html
+import io
+import threading
+import warnings
+
+import ipywidgets as widgets
+
+__all__ = ["Panel", "new_axes", "figure_png", "fmt", "fmt_count", "fmt_interval", "table_html"]
+
+# catch_warnings changes process-wide state; one panel call at a time records warnings
+_WARN_LOCK = threading.RLock()
+
+
+def _in_kernel() -> bool:
+    """True inside an IPython kernel (where ``with out:`` captures output)."""
+    try:
+        from IPython import get_ipython
+    except ImportError:  # pragma: no cover - ipywidgets depends on IPython
+        return False
+    return get_ipython() is not None
+
+
+def new_axes(figsize=(6.4, 4.2), nrows=1, ncols=1):
+    """A pyplot-free Figure and its axes (a single Axes for 1 x 1)."""
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=figsize, dpi=90, layout="constrained")
+    axes = fig.subplots(nrows, ncols)
+    return fig, axes
+
+
+def figure_png(fig) -> bytes:
+    """PNG bytes of a Figure (which is then dropped)."""
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png")
+    return buf.getvalue()
+
+
+def fmt(value, digits=3) -> str:
+    """A number for display: ``-`` for None or non-finite, ``inf`` kept."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return "-" if value is None else html.escape(str(value))
+    if v != v:
+        return "-"
+    if v in (float("inf"), float("-inf")):
+        return "inf" if v > 0 else "-inf"
+    if abs(v) >= 1e5 or (0 < abs(v) < 1e-3):
+        return f"{v:.{digits}g}"
+    return f"{v:.{digits}f}" if abs(v) < 100 else f"{v:,.0f}"
+
+
+def fmt_count(value) -> str:
+    """A sample or parameter count with thousands separators (``inf`` and ``-`` kept)."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return "-"
+    if v != v:
+        return "-"
+    if v in (float("inf"), float("-inf")):
+        return "inf"
+    return f"{v:,.0f}"
+
+
+def fmt_interval(iv, digits=3, *, count=False) -> str:
+    if iv is None:
+        return "-"
+    lo, hi = iv
+    f = fmt_count if count else (lambda v: fmt(v, digits))
+    return f"[{f(lo)}, {f(hi)}]"
+
+
+def table_html(rows, header=None) -> str:
+    """A small two-or-more column HTML table from a list of tuples (already formatted strings)."""
+    parts = ['<table style="border-collapse:collapse;font-size:13px">']
+    if header:
+        parts.append("<tr>" + "".join(f'<th style="text-align:left;padding:2px 10px 2px 0">{html.escape(h)}</th>'
+                                      for h in header) + "</tr>")
+    for row in rows:
+        parts.append("<tr>" + "".join(f'<td style="padding:2px 10px 2px 0">{c}</td>' for c in row) + "</tr>")
+    parts.append("</table>")
+    return "".join(parts)
+
+
+class Panel(widgets.VBox):
+    """Base class of the manireg panels.
+
+    Attributes
+    ----------
+    out : ipywidgets.Output
+        Where a live kernel shows the text of errors and warnings of the last update.
+    status : ipywidgets.HTML
+        One-line status: what was computed, or the error of the last update.
+    error : str or None
+        Text of the last error (None after a successful update).
+    last_message : str or None
+        Text of the last failure, including ones shown elsewhere (e.g. the planner's refusal).
+    notes : list of str
+        Warnings raised by the core during the last update.
+    """
+
+    title = "panel"
+
+    def __init__(self, **kwargs):
+        self.out = widgets.Output(layout=widgets.Layout(max_height="160px", overflow="auto"))
+        self.status = widgets.HTML(value="")
+        self.error = None
+        self.last_message = None
+        self.notes = []
+        super().__init__(**kwargs)
+
+    # ------------------------------------------------------------------ core calls
+    def _call(self, what, func, *args, _show=True, **kwargs):
+        """Run ``func(*args, **kwargs)`` inside ``with self.out:``; return its result or None on error.
+
+        From a worker thread the output context is not entered (it is not thread-safe); the status line and
+        ``self.error`` still carry the error.
+        """
+        main = _in_kernel() and threading.current_thread() is threading.main_thread()
+        with (self.out if main else contextlib.nullcontext()):
+            if main:
+                self.out.clear_output(wait=True)
+            try:
+                with _WARN_LOCK, warnings.catch_warnings(record=True) as caught:
+                    warnings.simplefilter("always")
+                    result = func(*args, **kwargs)
+            except Exception as exc:  # noqa: BLE001 - shown in the panel, never raised into the event loop
+                self._set_error(what, exc, show=_show)
+                return None
+            self.notes = list(dict.fromkeys(str(w.message) for w in caught))
+            if main:
+                for note in self.notes:
+                    print(f"warning ({what}): {note}")
+            if _show:
+                self.error = None
+            return result
+
+    def _set_error(self, what, exc, show=True):
+        text = f"{what} failed: {type(exc).__name__}: {exc}"
+        self.last_message = text
+        if show:
+            self.error = text
+            self.status.value = f'<span style="color:#b00020">{html.escape(text)}</span>'
+        if _in_kernel() and threading.current_thread() is threading.main_thread():
+            print(text)
+
+    def _set_status(self, text):
+        extra = ""
+        if self.notes:
+            extra = ('<br><span style="color:#8a6d00">' + "<br>".join(html.escape(n) for n in self.notes[:4])
+                     + "</span>")
+        self.status.value = html.escape(text) + extra
+
+    @staticmethod
+    def _draw(image, draw, figsize=(6.4, 4.2)):
+        """Draw with ``draw(ax)`` (a figure function) and put the PNG into ``image``."""
+        fig, ax = new_axes(figsize)
+        draw(ax)
+        image.value = figure_png(fig)
+        image.layout.display = None
+
+    @staticmethod
+    def _image():
+        """An empty PNG image widget, hidden until a figure is drawn into it."""
+        return widgets.Image(format="png", layout=widgets.Layout(display="none"))
+
+    def results(self):  # pragma: no cover - overridden
+        raise NotImplementedError
