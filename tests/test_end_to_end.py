@@ -1,0 +1,59 @@
+"""End to end on a sphere with a target of known Hölder order: study -> fit -> verdict -> plan."""
+
+import warnings
+
+import numpy as np
+import pytest
+
+from manireg.curves import LearnerSpec, Study
+from manireg.curves.fitting import VERDICT_INSUFFICIENT, VERDICT_MEASURED, VERDICT_NOT_POWER_LAW
+from manireg.data import make_regression, sphere
+from manireg.theory import ambient_exponent, regression_exponent
+
+
+@pytest.fixture(scope="module")
+def knn_result():
+    # S^2 in R^10, lacunary target of Hölder order s = 0.5, label noise sd 0.3
+    reg = make_regression(sphere(17000, 2, ambient_dim=10, seed=0), 0.5, noise_std=0.3, seed=1)
+    study = Study.from_regression_sample(reg, sizes=[200, 400, 800, 1600, 3200, 6400, 12800], repeats=5,
+                                         learners=["knn"], test_size=3000)
+    return study.run(progress=False)
+
+
+@pytest.mark.parametrize("metric,floor", [("test_mse_clean", None), ("test_mse", "estimate")])
+def test_knn_exponent_consistent_with_knn_theory(knn_result, metric, floor):
+    # k-NN regression with k ~ n^(2s/(2s+d)) attains n^(-2s/(2s+d)) for Hölder s <= 1 when d > 2s
+    # (Györfi, Kohler, Krzyzak, Walk, "A Distribution-Free Theory of Nonparametric Regression", 2002, Thm 6.2
+    # and its Hölder extension; from memory), with d the intrinsic dimension on a manifold (Kpotufe, NIPS 2011).
+    fit = knn_result.fit("knn", metric=metric, floor=floor)
+    predicted = regression_exponent(2, 0.5)  # 1/3
+    assert fit.verdict == VERDICT_MEASURED, fit.verdict_reason
+    assert abs(fit.exponent - predicted) < 0.06
+    assert fit.interval[0] < fit.exponent < fit.interval[1]
+    # and nowhere near the ambient exponent 2s/(2s+D) for D = 10 (about 0.09)
+    assert fit.interval[0] > 2 * ambient_exponent(10, 0.5)
+    # the implied dimension (given s) brackets the true d = 2 within a band
+    lo, hi = fit.implied_dimension
+    assert 1.4 < lo <= hi < 2.6
+
+
+def test_plan_from_measured_knn_curve_inverts_it(knn_result):
+    fit = knn_result.fit("knn", metric="test_mse_clean", floor=None)
+    target = float(fit.predict(25600))
+    plan = knn_result.plan(target, "knn", fit=fit)
+    assert plan.n_required == pytest.approx(25600, rel=1e-6)
+    assert plan.interval[0] < 25600 < plan.interval[1] and plan.extrapolated
+
+
+def test_network_exponent_reported_with_interval_and_verdict():
+    # the network's exponent, whatever it is, comes with an interval and a verdict; never asserted equal to theory
+    reg = make_regression(sphere(3000, 2, ambient_dim=10, seed=2), 0.5, noise_std=0.3, seed=3)
+    net = LearnerSpec("net", params={"max_steps": 600, "min_steps": 100, "patience_steps": 200})
+    study = Study.from_regression_sample(reg, sizes=[100, 200, 400, 800, 1600], repeats=3, learners=[net], test_size=800)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # fewer than 5 repeats warns
+        fit = study.run(progress=False).fit("net", floor="estimate")
+    assert np.all(np.isfinite(fit.interval)) and fit.interval[0] <= fit.exponent <= fit.interval[1]
+    assert fit.verdict in (VERDICT_MEASURED, VERDICT_NOT_POWER_LAW, VERDICT_INSUFFICIENT)
+    text = str(fit)
+    assert "interval" in text and "verdict" in text and fit.verdict_reason in text
