@@ -128,3 +128,21 @@ def test_result_fit_and_plan(tmp_path):
     res = make_study(tmp_path / "s.sqlite", learners=("knn",)).run(progress=False)
     fit = res.fit("knn", n_boot=50, metric="test_mse_clean")
     assert np.isfinite(fit.to_dict()["exponent"])
+
+
+def test_stop_flag_pauses_between_units_and_run_resumes(tmp_path):
+    import threading
+
+    study = make_study(tmp_path / "s.sqlite")
+    total = len(study.cells())
+    stop = threading.Event()
+    seen = []
+
+    def after_unit(rows):
+        seen.append(len(rows))
+        stop.set()  # ask to stop after the first unit
+
+    res = study.run(progress=False, stop=stop, on_unit=after_unit)
+    assert len(seen) == 1 and res.summary["stopped"] and 0 < len(res.rows) < total
+    again = study.run(progress=False)  # resume
+    assert len(again.rows) == total and again.summary["skipped"] == len(res.rows) and not again.summary["stopped"]

@@ -160,19 +160,19 @@ def test_curve_panel_runs_in_background_and_matches_fit_exponent(sample, tmp_pat
     study = Study.from_regression_sample(sample, sizes=[24, 48, 96, 192], repeats=2, learners=[TINY_NET, "knn"],
                                          store=str(tmp_path / "s.sqlite"))
     total = len(study.cells())
-    real_run_cells = execution.run_cells
+    real_run_unit = execution.run_unit
     panel = CurvePanel(study, n_boot=20, seed=0, target_error=0.02)
     assert panel.progress.value == 0 and panel.progress.max == total
     ran = []
 
-    def run_and_pause_after_first_unit(cells, *args, **kwargs):
-        ran.append(len(cells))
-        out = real_run_cells(cells, *args, **kwargs)
+    def run_and_pause_after_first_unit(unit, *args, **kwargs):
+        ran.append(len(unit))
+        out = real_run_unit(unit, *args, **kwargs)
         if len(ran) == 1:
             panel.pause()  # the stop flag is read between units
         return out
 
-    monkeypatch.setattr(execution, "run_cells", run_and_pause_after_first_unit)
+    monkeypatch.setattr(execution, "run_unit", run_and_pause_after_first_unit)
     panel.start()
     assert panel.wait(timeout=300)
     assert not panel.running

@@ -45,7 +45,8 @@ EXECUTORS = ("inprocess", "processes", "dask")
 
 
 class RunSummary(dict):
-    """What :func:`run_cells` did: ``total``, ``skipped``, ``ran``, ``failed`` counts and the ``executor``."""
+    """What :func:`run_cells` did: ``total``, ``skipped``, ``ran``, ``failed`` counts, the ``executor`` and
+    whether a ``stop`` request ended it early (``stopped``)."""
 
 
 def make_units(cells) -> list:
@@ -134,7 +135,7 @@ def _progress(total, initial, enabled, desc):
 
 
 def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=None, progress=True, *,
-              retry_failed=False, torch_threads=1) -> RunSummary:
+              retry_failed=False, torch_threads=1, stop=None, on_unit=None) -> RunSummary:
     """Run the cells that are not yet in ``store`` and write their rows there.
 
     Parameters
@@ -156,6 +157,11 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
         Run cells stored with ``status="failed"`` again (otherwise they count as done).
     torch_threads : int, default=1
         torch threads inside each unit; keep it fixed to keep rows identical across executors.
+    stop : object with ``is_set()`` (e.g. ``threading.Event``), optional
+        Checked before each unit is started and after each unit finishes: once set, no further unit starts
+        (units in flight finish and are stored). This is how a notebook panel pauses a study.
+    on_unit : callable(rows), optional
+        Called in the calling process after each finished unit's rows are stored (live plots).
 
     Returns
     -------
@@ -183,7 +189,14 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
     if not pending:
         return summary
     units = make_units(pending)
+    if executor != "inprocess":
+        # Largest units first (longest-processing-time order): the biggest net unit, which sets the
+        # critical path, starts at once while the other workers take the small ones.
+        units.sort(key=_unit_cost, reverse=True)
     bar = _progress(total, total - len(pending), progress, getattr(data, "label", "study"))
+
+    def stopped():
+        return stop is not None and stop.is_set()
 
     def record(rows):
         for row in rows:
@@ -192,10 +205,16 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
             summary["failed"] += row["status"] != "ok"
         if bar is not None:
             bar.update(len(rows))
+        if on_unit is not None:
+            on_unit(rows)
+        return stopped()
 
+    summary["stopped"] = False
     try:
         if executor == "inprocess":
             for unit in units:
+                if stopped():
+                    break
                 record(run_unit(unit, data, torch_threads))
         elif executor == "processes":
             _run_joblib(units, data, n_jobs or os.cpu_count() or 1, torch_threads, record)
@@ -204,7 +223,13 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
     finally:
         if bar is not None:
             bar.close()
+    summary["stopped"] = stopped() and summary["ran"] + summary["skipped"] < total
     return summary
+
+
+def _unit_cost(unit):
+    """Rough relative cost of a unit for ordering: cells x n (a net's step cost grows with n)."""
+    return len(unit) * max(int(c.n) for c in unit)
 
 
 def _run_joblib(units, data, n_jobs, torch_threads, record):
@@ -214,7 +239,8 @@ def _run_joblib(units, data, n_jobs, torch_threads, record):
     gen = par(delayed(run_unit)(u, data, torch_threads) for u in units)
     try:
         for rows in gen:
-            record(rows)
+            if record(rows):
+                break  # stop requested: the generator is closed below, queued units are dropped
     finally:
         close = getattr(gen, "close", None)
         if close is not None:
@@ -247,7 +273,11 @@ def _run_dask(units, data, scheduler, n_workers, torch_threads, record):
         data_future = client.scatter(data, broadcast=True)
         futures = [client.submit(run_unit, u, data_future, torch_threads, pure=False) for u in units]
         for fut in as_completed(futures):
-            record(fut.result())
+            if record(fut.result()):
+                break
+        for f in futures:  # after a stop request: cancel what has not run
+            if not f.done():
+                f.cancel()
     except BaseException:
         for f in futures:
             if not f.done():

@@ -1,8 +1,7 @@
 """CurvePanel: run, pause and resume a learning-curve study; fit its exponent; plan samples.
 
-The sweep runs in a background thread, one work unit at a time, through the core executor
-(:func:`manireg.curves.execution.run_cells` on the units of :func:`~manireg.curves.execution.make_units`),
-so the kernel stays free. Pause sets a stop flag that is read between units; the store keeps every finished
+The sweep runs in a background thread through :meth:`manireg.curves.Study.run` (with its ``stop`` flag and
+``on_unit`` callback), so the kernel stays free. Pause sets the stop flag, which is read between units; the store keeps every finished
 cell, so resume is "run again": finished cells are skipped. After each unit the rows are reloaded, the
 progress bar moves (cells done / total) and the curves are refitted and redrawn.
 
@@ -260,20 +259,11 @@ class CurvePanel(Panel):
         return True
 
     def _worker(self):
-        from manireg.curves.execution import make_units, run_cells
-
         study = self.study
         try:
-            cells = study.cells()
-            study.store.put_study(study.data.metadata(study.spec))
-            done = study.store.finished_keys()
-            units = make_units([c for c in cells if c.key not in done])
-            self._set_status(f"running {sum(len(u) for u in units)} cells in {len(units)} units")
-            for unit in units:
-                if self._stop.is_set():
-                    break
-                run_cells(unit, study.data, study.store, executor="inprocess", progress=False)
-                self.refresh()
+            pending = len(study.cells()) - len(study.store.finished_keys(study=study.data.label))
+            self._set_status(f"running about {max(pending, 0)} cells")
+            study.run(progress=False, stop=self._stop, on_unit=lambda rows: self.refresh())
         except Exception as exc:  # noqa: BLE001 - shown in the panel
             self._set_error("study run", exc)
         finally:
