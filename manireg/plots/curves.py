@@ -19,6 +19,14 @@ def _axes(ax, figsize=(6.4, 4.6)):
     return fig, ax
 
 
+def _plain_log_ticks(ax):
+    """Label only the decades of a log axis (minor labels like 3x10^2 collide on short ranges)."""
+    from matplotlib.ticker import NullFormatter
+
+    ax.xaxis.set_minor_formatter(NullFormatter())
+    ax.yaxis.set_minor_formatter(NullFormatter())
+
+
 def _fit_label(fit) -> str:
     lo, hi = fit.interval
     if not np.isfinite(fit.exponent):
@@ -74,6 +82,7 @@ def plot_learning_curves(rows, fits=None, *, metric: str = "test_mse", ax=None, 
                         label=f"{learner}: predicted slope {b:.2f}")
     ax.set_xscale("log")
     ax.set_yscale("log")
+    _plain_log_ticks(ax)
     ax.set_xlabel("training samples n")
     ax.set_ylabel({"test_mse": "held-out MSE", "test_mse_clean": "MSE against the noise-free target"}.get(metric, metric))
     ax.set_title(title or "Learning curves")
