@@ -422,10 +422,16 @@ class ExponentFit(ResultMixin):
             lines.append(f"  ambient 2s/(2s+D): {p[0]:.3f}" + (f" to {p[1]:.3f}" if p[1] != p[0] else ""))
         if self.implied_dimension is not None:
             p = self.implied_dimension
-            lines.append(f"  implied d (given s): {p[0]:.3g} to {p[1]:.3g}")
+            if p[1] == 0.0:
+                lines.append("  implied d (given s): none: an exponent of 1 or more exceeds 2s/(2s+d) for every d > 0")
+            else:
+                lines.append(f"  implied d (given s): {p[0]:.3g} to {p[1]:.3g}")
         if self.implied_smoothness is not None:
             p = self.implied_smoothness
-            lines.append(f"  implied s (given d): {p[0]:.3g} to {p[1]:.3g}")
+            if p[0] == math.inf:
+                lines.append("  implied s (given d): none: an exponent of 1 or more needs s -> infinity")
+            else:
+                lines.append(f"  implied s (given d): {p[0]:.3g} to {p[1]:.3g}")
         return "\n".join(lines)
 
 
