@@ -67,6 +67,13 @@ def plot_dimension_profile(profile_or_report, ax=None, *, true_dimension=None, x
     if true_dimension is not None:
         ax.axhline(true_dimension, color="k", linestyle="--", linewidth=1, label=f"true d = {true_dimension:g}")
     ax.set_xscale("log")
+    if x == "scale":  # label the neighbour counts themselves; minor labels like 3x10^0 collide
+        from matplotlib.ticker import NullFormatter
+
+        ticks = np.unique(np.asarray(profile.scale, dtype=float))
+        ax.set_xticks(ticks)
+        ax.set_xticklabels([f"{t:g}" for t in ticks])
+        ax.xaxis.set_minor_formatter(NullFormatter())
     ax.set_xlabel("neighbour count k" if x == "scale" else "median neighbour distance")
     ax.set_ylabel("estimated dimension")
     ax.set_title(f"Dimension profile ({profile.level:.0%} bootstrap bands, n = {profile.n_samples})")
