@@ -145,7 +145,10 @@ def test_interrupt_then_resume(sphere_csv, tmp_path):
     out = tmp_path / "run"
     args = [sys.executable, "-m", "manireg", "study", str(sphere_csv), "--target", "y", "--sizes", "40", "80", "160", "320",
             "--repeats", "3", "--learners", "net", "knn", "--no-geometry", "--dimension", "2", "--quiet", "--out", str(out)]
-    proc = subprocess.Popen(args, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=ENV)
+    # a shell without job control starts background commands with SIGINT ignored, and Python then installs no
+    # handler; give the child the default disposition, as an interactive terminal would
+    proc = subprocess.Popen(args, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=ENV,
+                            preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))
     store = out / "study.sqlite"
     deadline = time.time() + 300
     n_rows = 0
