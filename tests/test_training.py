@@ -137,7 +137,9 @@ def test_stop_reasons_and_late_best():
     (r,) = BatchedTrainer(spec, config(max_steps=60, eval_every=10)).fit(make_tasks([300], [0]))
     assert r.stop_reason == "step_cap" and r.steps == 60
     assert r.late_best == (r.best_step >= 48)
-    (r,) = BatchedTrainer(spec, config(max_steps=10**6, max_seconds=0.2)).fit(make_tasks([300], [0]))
+    # patience off, so only the 0.2 s cap can stop it (a 300-row fit is done in under 300 steps otherwise)
+    (r,) = BatchedTrainer(spec, config(max_steps=10**6, patience_steps=10**6, max_seconds=0.2)).fit(
+        make_tasks([300], [0]))
     assert r.stop_reason == "time_cap"
     # patience: a pure-noise target (independent of X) stops improving after the first evaluations
     X, _, _ = circle_data(300, seed=0)
@@ -192,3 +194,45 @@ def test_bad_inputs():
         BatchedTrainer(spec).fit([])
     with pytest.raises(RuntimeError, match=r"call fit\(tasks\) first"):
         BatchedTrainer(spec).predict(X)
+
+
+def test_hand_written_gradients_and_fused_adam_match_autograd_and_torch_adam():
+    # The trainer's backward pass is written out by hand and its update is torch._fused_adam_; check both
+    # against autograd and torch.optim.Adam (reference implementation) on a random stacked net.
+    from manireg.nets.training import _loss_grads
+
+    g = torch.Generator().manual_seed(0)
+    R, B, sizes = 3, 17, [D, 12, 12, 1]
+    Ws = [torch.randn(R, a, b, generator=g) / a**0.5 for a, b in zip(sizes[:-1], sizes[1:])]
+    bs = [0.1 * torch.randn(R, 1, b, generator=g) for b in sizes[1:]]
+    x, y = torch.randn(R, B, D, generator=g), torch.randn(R, B, generator=g)
+    w = torch.rand(R, B, generator=g)
+    params = [p.clone().requires_grad_(True) for p in Ws + bs]
+    h = x
+    for i in range(len(Ws)):
+        h = torch.baddbmm(params[len(Ws) + i], h, params[i])
+        if i < len(Ws) - 1:
+            h = torch.relu(h)
+    loss = ((h.squeeze(-1) - y) ** 2 * w).sum()
+    ref = torch.autograd.grad(loss, params)
+    for weights in (w, 1.0 / B):
+        mine = _loss_grads(Ws, bs, x, y, weights)
+        if not isinstance(weights, float):
+            for a, b in zip(mine, ref):
+                torch.testing.assert_close(a, b, rtol=1e-5, atol=1e-6)
+    # one fused Adam step (shared step counter) equals torch.optim.Adam's step
+    p_fused = [p.detach().clone() for p in params]
+    m1 = [torch.zeros_like(p) for p in p_fused]
+    m2 = [torch.zeros_like(p) for p in p_fused]
+    p_ref = [p.detach().clone().requires_grad_(True) for p in params]
+    opt = torch.optim.Adam(p_ref, lr=3e-3)
+    step = torch.zeros(())
+    for t in range(3):
+        step.fill_(t + 1)
+        torch._fused_adam_(p_fused, list(ref), m1, m2, [], [step] * len(p_fused), lr=3e-3, beta1=0.9,
+                           beta2=0.999, weight_decay=0.0, eps=1e-8, amsgrad=False, maximize=False)
+        for p, gr in zip(p_ref, ref):
+            p.grad = gr.clone()
+        opt.step()
+    for a, b in zip(p_fused, p_ref):
+        torch.testing.assert_close(a, b.detach(), rtol=1e-5, atol=1e-6)

@@ -44,7 +44,8 @@ from manireg._validation import (
 from manireg.nets.builders import ReLUNetwork, build_network, init_parameters
 from manireg.theory.sizing import ArchitectureSpec, SizingConstants, size_network
 
-__all__ = ["TrainConfig", "ReplicaTask", "ReplicaResult", "BatchedTrainer", "NetworkRegressor", "lr_at_step"]
+__all__ = ["TrainConfig", "ReplicaTask", "ReplicaResult", "BatchedTrainer", "NetworkRegressor", "lr_at_step",
+           "auto_threads"]
 
 STOP_REASONS = ("patience", "step_cap", "time_cap")
 
@@ -68,21 +69,25 @@ class TrainConfig:
         Adam constants (PyTorch's defaults).
     batch_size : int, default=128
         Minibatch size for replicas with more than ``full_batch_threshold`` training samples.
-    full_batch_threshold : int, default=512
-        Replicas with ``n_train <= full_batch_threshold`` take full-batch steps (no sampling noise,
-        and a step on 512 rows costs little more than on 128 on a CPU).
-    max_steps : int, default=3000
-        Step cap.
+    full_batch_threshold : int, default=256
+        Replicas with ``n_train <= full_batch_threshold`` take full-batch steps (no sampling noise; a
+        step on up to 256 rows costs about as much as on 128). Above it a full-batch step costs
+        ``n_train / 128`` minibatch steps and was not more accurate per second.
+    max_steps : int, default=500
+        Step cap; also the length of the learning-rate schedule. A short cosine schedule that ends at a
+        small learning rate reached lower test error than 3000 steps with patience 600 on the benchmark
+        problems (docs/theory.md), at a sixth of the steps.
     max_seconds : float, default=600.0
         Wall-clock cap for each group of replicas trained together.
-    min_steps : int, default=400
-        No replica stops for patience before this step.
-    patience_steps : int, default=600
+    min_steps : int, default=200
+        No replica stops for patience before this step. Counted in steps, not epochs, so a small data
+        set (two minibatch steps per epoch at n = 256) still gets a real training run.
+    patience_steps : int, default=150
         Stop a replica when its validation MSE has not improved for this many steps.
     tol : float, default=1e-4
         A validation MSE counts as an improvement (new best weights, patience reset) only when it is below
         ``(1 - tol) * best``; tiny gains of a converged fit do not keep it running.
-    eval_every : int, default=50
+    eval_every : int, default=25
         Validation MSE is computed every this many steps (and at step 0); it sets the resolution of
         ``best_step`` and of the patience test.
     validation_fraction : float, default=0.2
@@ -112,13 +117,13 @@ class TrainConfig:
     beta2: float = 0.999
     adam_eps: float = 1e-8
     batch_size: int = 128
-    full_batch_threshold: int = 512
-    max_steps: int = 3000
+    full_batch_threshold: int = 256
+    max_steps: int = 500
     max_seconds: float = 600.0
-    min_steps: int = 400
-    patience_steps: int = 600
+    min_steps: int = 200
+    patience_steps: int = 150
     tol: float = 1e-4
-    eval_every: int = 50
+    eval_every: int = 25
     validation_fraction: float = 0.2
     project_weights: bool = False
     prune: bool = False
@@ -246,6 +251,18 @@ def _torch_threads(n):
         torch.set_num_threads(old)
 
 
+def auto_threads(spec, rows):
+    """torch threads the trainer picks when ``TrainConfig.n_threads`` is None: 1 for a step under 2e8 flops.
+
+    ``rows`` is the number of rows in one optimiser step summed over the replicas trained together; a
+    step costs about ``6 * spec.n_parameters * rows`` flops. Below 2e8 flops thread start-up and
+    synchronisation cost more than a second thread saves (and much more on a shared machine), so one
+    thread is used; otherwise None (torch's current setting). Benchmarks give one-at-a-time loops the
+    same policy through this function.
+    """
+    return 1 if 6.0 * spec.n_parameters * rows < 2e8 else None
+
+
 def _derived_seed(seed: int, stream: int) -> int:
     return int(np.random.SeedSequence([int(seed), stream]).generate_state(1, dtype=np.uint64)[0] >> 1)
 
@@ -322,6 +339,28 @@ def _row_weights(counts, length):
     return w
 
 
+def _loss_grads(Ws, bs, x, y, w):
+    """Gradients of ``sum_r sum_i w_ri (z_ri - y_ri)^2`` for the stacked net, by hand (no autograd).
+
+    ``w`` is a (R, B) tensor of row weights or a float (the same weight for every row). Returns the weight
+    gradients (R, in, out) followed by the bias gradients (R, 1, out), in the order of ``Ws + bs``. Writing
+    the backward pass out saves autograd's graph bookkeeping, which dominates a step of a small net.
+    """
+    hs = [x]
+    last = len(Ws) - 1
+    for i in range(last):
+        hs.append(torch.baddbmm(bs[i], hs[-1], Ws[i]).clamp_min_(0.0))
+    z = torch.baddbmm(bs[last], hs[-1], Ws[last])
+    g = z.sub_(y.unsqueeze(-1)).mul_(2.0 * w if isinstance(w, float) else 2.0 * w.unsqueeze(-1))
+    gW, gb = [None] * len(Ws), [None] * len(Ws)
+    for i in range(last, -1, -1):
+        gW[i] = torch.bmm(hs[i].transpose(1, 2), g)
+        gb[i] = g.sum(dim=1, keepdim=True)
+        if i > 0:
+            g = torch.ops.aten.threshold_backward(torch.bmm(g, Ws[i].transpose(1, 2)), hs[i], 0.0)
+    return gW + gb
+
+
 def _forward(Ws, bs, x):
     """Stacked forward pass: x (R, B, D) -> (R, B) in standardised target units."""
     h = x
@@ -346,12 +385,13 @@ class BatchedTrainer:
     Notes
     -----
     Replicas are grouped by effective batch size: all minibatch replicas form one stack; full-batch
-    replicas (``n <= full_batch_threshold``) are stacked with others whose n lies in the same power of two
-    and zero-padded with zero loss weight, so a replica's gradient is that of its own mean loss. Groups are
-    trained one after another. A replica that stops leaves the stack (its rows are removed from the weights
-    and Adam moments), so finished replicas cost nothing. Validation MSE is computed on the clipped
-    prediction in target units; the training loss is not clipped (clamping has zero gradient outside the
-    bound, which would freeze samples there).
+    replicas (``n <= full_batch_threshold``) are stacked with others of the same n (no padding of the
+    training rows, so their reductions do not depend on the other replicas). Groups are trained one after
+    another. A step is a hand-written forward/backward pass (``baddbmm``/``bmm``) and one
+    ``torch._fused_adam_`` call on the stacked tensors. A replica that stops leaves the stack (its rows are
+    removed from the weights and Adam moments), so finished replicas cost nothing. Validation MSE is
+    computed on the clipped prediction in target units; the training loss is not clipped (clamping has zero
+    gradient outside the bound, which would freeze samples there).
 
     References
     ----------
@@ -405,7 +445,7 @@ class BatchedTrainer:
         prepared = [_Prepared(t, i, self.config, self.spec.input_dim, owner) for i, t in enumerate(tasks)]
         groups = {}
         for i, p in enumerate(prepared):
-            key = ("full", max(0, math.ceil(math.log2(p.n)))) if p.full else ("mini", p.batch)
+            key = ("full", p.n) if p.full else ("mini", p.batch)
             groups.setdefault(key, []).append(i)
         results = [None] * len(tasks)
         with torch.no_grad():
@@ -414,8 +454,7 @@ class BatchedTrainer:
                 reps = [prepared[i] for i in idx]
                 threads = self.config.n_threads
                 if threads is None:
-                    flops = 6.0 * self.spec.n_parameters * sum(p.batch for p in reps)
-                    threads = 1 if flops < 2e8 else None
+                    threads = auto_threads(self.spec, sum(p.batch for p in reps))
                 with _torch_threads(threads):
                     for i, res in zip(idx, self._fit_group(reps)):
                         results[i] = res
@@ -484,11 +523,10 @@ class BatchedTrainer:
         Ws = [torch.stack([ini[l][0] for ini in inits]).contiguous() for l in range(L)]
         bs = [torch.stack([ini[l][1] for ini in inits])[:, None, :].contiguous() for l in range(L)]
         params = Ws + bs
-        for p in params:
-            p.requires_grad_(True)
         m1 = [torch.zeros_like(p) for p in params]
         m2 = [torch.zeros_like(p) for p in params]
-        best = [p.detach().clone() for p in params]
+        best = [p.clone() for p in params]
+        adam_step = torch.zeros((), dtype=torch.float32)  # shared step counter of the fused Adam kernel
         # ---- data
         n_max = max(p.n for p in reps)
         X = _pad_stack([p.X for p in reps], n_max)
@@ -595,7 +633,7 @@ class BatchedTrainer:
                     if not keep:
                         break
                     ki = torch.tensor(keep, dtype=torch.int64)
-                    params = [p.detach()[ki].contiguous().requires_grad_(True) for p in params]
+                    params = [p[ki].contiguous() for p in params]
                     m1 = [m[ki].contiguous() for m in m1]
                     m2 = [m[ki].contiguous() for m in m2]
                     best = [bp[ki].contiguous() for bp in best]
@@ -631,25 +669,14 @@ class BatchedTrainer:
                 xb = flat_X.index_select(0, flat).view(Ra, B, -1)
                 yb = flat_Y.index_select(0, flat).view(Ra, B)
                 wb_rows = None
-            with torch.enable_grad():
-                z = _forward(params[:L], params[L:], xb)
-                if wb_rows is None:
-                    loss = ((z - yb) ** 2).sum() * w_mb
-                else:
-                    loss = ((z - yb) ** 2 * wb_rows).sum()
-                grads = torch.autograd.grad(loss, params)
+            grads = _loss_grads(params[:L], params[L:], xb, yb, w_mb if wb_rows is None else wb_rows)
             step += 1
-            lr = lr_at_step(cfg, step - 1)
-            torch._foreach_mul_(m1, b1)
-            torch._foreach_add_(m1, grads, alpha=1.0 - b1)
-            torch._foreach_mul_(m2, b2)
-            torch._foreach_addcmul_(m2, grads, grads, value=1.0 - b2)
-            bc1 = 1.0 - b1**step
-            bc2 = 1.0 - b2**step
-            denom = torch._foreach_sqrt(m2)
-            torch._foreach_div_(denom, math.sqrt(bc2))
-            torch._foreach_add_(denom, eps)
-            torch._foreach_addcdiv_(params, m1, denom, value=-lr / bc1)
+            adam_step.fill_(step)
+            # One fused kernel for the whole Adam update of every tensor [1]_ (same formula as
+            # torch.optim.Adam: m/(1-b1^t) / (sqrt(v/(1-b2^t)) + eps)).
+            torch._fused_adam_(params, grads, m1, m2, [], [adam_step] * len(params),
+                               lr=lr_at_step(cfg, step - 1), beta1=b1, beta2=b2, weight_decay=0.0, eps=eps,
+                               amsgrad=False, maximize=False)
             if cfg.project_weights:
                 for W in params[:L]:
                     W.clamp_(-wb, wb)
@@ -746,11 +773,11 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
         learning_rate=3e-3,
         schedule="cosine",
         batch_size=128,
-        full_batch_threshold=512,
-        max_steps=3000,
+        full_batch_threshold=256,
+        max_steps=500,
         max_seconds=600.0,
-        min_steps=400,
-        patience_steps=600,
+        min_steps=200,
+        patience_steps=150,
         validation_fraction=0.2,
         project_weights=False,
         prune=False,

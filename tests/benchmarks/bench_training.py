@@ -3,11 +3,14 @@
 Run as a script (pytest does not collect it):
 
     python tests/benchmarks/bench_training.py            # n = 256 .. 8192, 5 repeats
-    python tests/benchmarks/bench_training.py --quick    # n = 256 .. 2048, 3 repeats, shorter budget
+    python tests/benchmarks/bench_training.py --quick    # n = 256 .. 2048, 3 repeats
 
 Data: a 2-sphere in R^3 placed in R^64 by a random rotation, target sin(2 x1) + x2 x3 + noise (sd 0.1),
 test MSE against the noise-free target on 2000 points. All three learners get the same hidden sizes
-(``size_network(n_train, d=2, s=1, input_dim=64)``), batch size, learning rate and validation split.
+(``size_network(n_train, d=2, s=1, input_dim=64)``), batch size, learning rate and validation split; the
+batched trainer and the one-at-a-time PyTorch loop run the default ``TrainConfig`` and the same torch
+thread policy (``manireg.nets.training.auto_threads``: one thread for a step under 2e8 flops, else
+torch's setting).
 
 FLOP count of the batched trainer: ``6 * n_parameters * rows`` per replica and optimiser step (2 flops
 per weight and row forward, 4 backward), summed over replicas and steps; validation passes are not
@@ -37,6 +40,19 @@ def make_data(n, seed, D=64, noise=0.1):
 
 def torch_one_at_a_time(spec, cfg, Xtr, ytr, Xva, yva, seed):
     """A plain PyTorch loop for one network: same init, schedule, batch size, early stopping."""
+    import torch
+
+    from manireg.nets import build_network
+    from manireg.nets.training import _torch_threads, auto_threads, lr_at_step
+
+    n = len(Xtr)
+    rows = n if n <= cfg.full_batch_threshold else min(cfg.batch_size, n)
+    threads = cfg.n_threads if cfg.n_threads is not None else auto_threads(spec, rows)
+    with _torch_threads(threads):  # the batched trainer's thread policy, for a fair comparison
+        return _torch_loop(spec, cfg, Xtr, ytr, Xva, yva, seed)
+
+
+def _torch_loop(spec, cfg, Xtr, ytr, Xva, yva, seed):
     import torch
 
     from manireg.nets import build_network
@@ -97,7 +113,7 @@ def matmul_gflops(size=2048, repeats=5):
 
 def main(argv=None):
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--quick", action="store_true", help="n up to 2048, 3 repeats, 1500-step cap")
+    parser.add_argument("--quick", action="store_true", help="n up to 2048, 3 repeats")
     parser.add_argument("--repeats", type=int, default=None)
     args = parser.parse_args(argv)
 
@@ -111,7 +127,7 @@ def main(argv=None):
 
     ns = [256, 512, 1024, 2048] if args.quick else [256, 512, 1024, 2048, 4096, 8192]
     repeats = args.repeats or (3 if args.quick else 5)
-    cfg = TrainConfig(max_steps=1500 if args.quick else 3000)
+    cfg = TrainConfig()
     Xte, _, fte = make_data(2000, seed=10**6)
     peak = matmul_gflops()
     print(f"torch {torch.__version__}, threads {torch.get_num_threads()}, repeats {repeats}, config {cfg}")
@@ -120,7 +136,7 @@ def main(argv=None):
               f"{'mse batched':>11} {'mse torch1':>10} {'mse sklearn':>11} | {'x torch1':>8} {'x sklearn':>9} | "
               f"{'GFLOP/s':>7} {'of peak':>7} {'stops':>14}")
     print(header)
-    tot = {"b": 0.0, "t": 0.0, "s": 0.0}
+    tot = {"b": 0.0, "t": 0.0, "s": 0.0, "flops": 0.0}
     for n in ns:
         n_val = n // 5
         data = [make_data(n, seed=1000 * n + r) for r in range(repeats)]
@@ -157,6 +173,7 @@ def main(argv=None):
         ts = time.perf_counter() - t
         mse_s = float(np.mean(mses))
         tot["b"] += tb
+        tot["flops"] += flops
         tot["t"] += tt
         tot["s"] += ts
         stops = ",".join(sorted({r.stop_reason for r in res}))
@@ -164,7 +181,9 @@ def main(argv=None):
               f"{mse_t:>10.5f} {mse_s:>11.5f} | {tt / tb:>8.2f} {ts / tb:>9.2f} | {gfl:>7.2f} {gfl / peak:>7.3f} "
               f"{stops:>14}", flush=True)
     print(f"total seconds: batched {tot['b']:.1f}, torch one-at-a-time {tot['t']:.1f}, sklearn {tot['s']:.1f}; "
-          f"speed-up x{tot['t'] / tot['b']:.2f} over torch one-at-a-time, x{tot['s'] / tot['b']:.2f} over sklearn")
+          f"speed-up x{tot['t'] / tot['b']:.2f} over torch one-at-a-time, x{tot['s'] / tot['b']:.2f} over sklearn; "
+          f"batched {tot['flops'] / tot['b'] / 1e9:.2f} GFLOP/s overall = {tot['flops'] / tot['b'] / 1e9 / peak:.3f} "
+          f"of the matmul")
     return 0
 
 
