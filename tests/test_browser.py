@@ -1,8 +1,13 @@
-"""One real-browser check: a SizingPanel served by Voila, driven by headless Chromium through playwright.
+"""Real-browser checks: the four panels served by Voila, driven by headless Chromium through playwright.
+
+One small notebook, written into a temporary folder, builds on seeded synthetic data (400 points on a
+2-sphere in R^5) a SizingPanel, a GeometryPanel, a CurvePanel of a tiny finished study and a StudyPanel.
+Voila runs it once; the tests below share the page. Each test waits for its panel to render, saves an
+element screenshot to tests/artifacts/ (copied to docs/img/ for docs/panels.md) and, for the sizing,
+geometry and curve panels, changes a control in the browser and checks that the rendered text changed.
 
 Skipped only when Debian's chromium (/usr/bin/chromium) is absent; CI installs it. The server binds to
-127.0.0.1 on a free port, is given a bounded time to come up and is shut down at the end. Screenshots go to
-tests/artifacts/ and are copied to docs/img/.
+127.0.0.1 on a free port, is given a bounded time to come up and is shut down at the end.
 """
 
 import json
@@ -22,14 +27,45 @@ ARTIFACTS = ROOT / "tests" / "artifacts"
 DOCS_IMG = ROOT / "docs" / "img"
 CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--no-first-run", "--disable-background-networking",
                  "--disable-component-update", "--disable-sync"]
+# waits for rendering and for a redraw after a control change (bounds, not speed checks)
+WAIT_MS = 120_000
+VIEWPORT = {"width": 1400, "height": 1000}
 
-pytestmark = [pytest.mark.browser, pytest.mark.slow]
+pytestmark = [
+    pytest.mark.browser, pytest.mark.slow,
+    pytest.mark.skipif(not Path(CHROMIUM).exists(), reason="needs Debian's chromium at /usr/bin/chromium"),
+]
 
-PANEL_NOTEBOOK = {
+
+def _code(source):
+    return {"cell_type": "code", "execution_count": None, "metadata": {}, "outputs": [], "source": source}
+
+
+# Each panel gets a CSS class so the test can find it (and only it) on the page.
+PANELS_NOTEBOOK = {
     "cells": [
-        {"cell_type": "code", "execution_count": None, "metadata": {}, "outputs": [],
-         "source": "from manireg.widgets import SizingPanel\n"
-                   "panel = SizingPanel(n=1000, d=2.0, s=1.5, input_dim=256)\npanel"},
+        _code("from manireg.curves import LearnerSpec\n"
+              "from manireg.curves.study import Study\n"
+              "from manireg.data import make_regression, sphere\n"
+              "from manireg.widgets import CurvePanel, GeometryPanel, SizingPanel, StudyPanel\n"
+              "sample = make_regression(sphere(400, 2, ambient_dim=5, seed=0), 1.0, noise_std=0.1, seed=1)\n"
+              "net = LearnerSpec('net', params={'max_steps': 200, 'min_steps': 50, 'patience_steps': 100})\n"
+              "study = Study.from_regression_sample(sample, sizes=[24, 48, 96, 192], repeats=2,\n"
+              "                                     learners=[net, 'knn'], seed=0, store='study.sqlite')\n"
+              "study.run(progress=False)"),
+        _code("sizing = SizingPanel(n=1000, d=2.0, s=1.5, input_dim=256)\n"
+              "sizing.add_class('mr-sizing-panel')\nsizing"),
+        _code("geometry = GeometryPanel(sample.X, sample.y, true_dimension=2, n_boot=50, seed=0)\n"
+              "geometry.add_class('mr-geometry-panel')\ngeometry"),
+        # the tiny study spans less than a decade of n, so its verdict is not "measured": the planner plans
+        # only with "plan from an unverified fit" ticked (and marks the plan with a warning)
+        _code("curves = CurvePanel(study.result(), n_boot=200, seed=0)\n"
+              "curves.allow_unverified.value = True\n"
+              "curves.target_error.value = 0.05\n"
+              "curves.add_class('mr-curve-panel')\ncurves"),
+        _code("study_panel = StudyPanel(sample.X, sample.y, s=1.0, study=study,\n"
+              "                         geometry_kwargs={'true_dimension': 2, 'n_boot': 50})\n"
+              "study_panel.add_class('mr-study-panel')\nstudy_panel"),
     ],
     "metadata": {"kernelspec": {"display_name": "Python 3", "language": "python", "name": "python3"}},
     "nbformat": 4, "nbformat_minor": 5,
@@ -59,27 +95,28 @@ def wait_for_port(port, proc, attempts=240):
     return False
 
 
-@pytest.fixture
-def voila_server(tmp_path):
-    pytest.importorskip("voila")
+@pytest.fixture(scope="module")
+def voila_server(tmp_path_factory):
     from test_notebooks import write_kernelspec
 
-    nb_path = tmp_path / "sizing_panel.ipynb"
-    nb_path.write_text(json.dumps(PANEL_NOTEBOOK))
+    tmp_path = tmp_path_factory.mktemp("voila")
+    nb_path = tmp_path / "panels.ipynb"
+    nb_path.write_text(json.dumps(PANELS_NOTEBOOK))
     env = dict(os.environ, JUPYTER_PATH=str(write_kernelspec(tmp_path / "jupyter")), OMP_NUM_THREADS="1",
                JUPYTER_CONFIG_DIR=str(tmp_path / "config"), JUPYTER_RUNTIME_DIR=str(tmp_path / "runtime"))
     port = free_port()
-    log = open(tmp_path / "voila.log", "w")
+    log_path = tmp_path / "voila.log"
+    log = open(log_path, "w")
     proc = subprocess.Popen(
-        [sys.executable, "-m", "voila", str(nb_path), "--no-browser", f"--port={port}", "--Voila.ip=127.0.0.1"],
+        [sys.executable, "-m", "voila", str(nb_path), "--no-browser", f"--port={port}", "--Voila.ip=127.0.0.1",
+         "--show_tracebacks=True"],
         cwd=tmp_path, env=env, stdout=log, stderr=subprocess.STDOUT,
     )
     try:
-        base = f"http://127.0.0.1:{port}/"
         if not wait_for_port(port, proc):
             log.flush()
-            pytest.fail("voila did not start:\n" + (tmp_path / "voila.log").read_text()[-3000:])
-        yield base
+            pytest.fail("voila did not start:\n" + log_path.read_text()[-3000:])
+        yield f"http://127.0.0.1:{port}/", log_path
     finally:
         proc.terminate()
         try:
@@ -90,42 +127,157 @@ def voila_server(tmp_path):
         log.close()
 
 
-def spec_value(page, quantity):
-    """Text of the value cell next to ``quantity`` in the panel's table."""
-    row = page.locator("tr", has=page.locator("td", has_text=quantity)).first
-    return row.locator("td").nth(1).inner_text()
+@pytest.fixture(scope="module")
+def page(voila_server):
+    """The served notebook in headless Chromium, loaded once (Voila runs the notebook on every load)."""
+    from playwright.sync_api import sync_playwright
 
-
-@pytest.mark.skipif(not Path(CHROMIUM).exists(), reason="needs Debian's chromium at /usr/bin/chromium")
-def test_sizing_panel_in_real_browser(voila_server):
-    sync_api = pytest.importorskip("playwright.sync_api")
+    url, log_path = voila_server
     ARTIFACTS.mkdir(parents=True, exist_ok=True)
-    with sync_api.sync_playwright() as p:
+    with sync_playwright() as p:
         browser = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS, headless=True)
         try:
-            page = browser.new_page(viewport={"width": 1100, "height": 1000})
-            page.set_default_timeout(90_000)
-            page.goto(voila_server, wait_until="domcontentloaded", timeout=240_000)
-            page.wait_for_selector("text=depth (hidden layers)")
-            width_before = spec_value(page, "width")
-            params_before = spec_value(page, "parameters (dense)")
-            page.screenshot(path=str(ARTIFACTS / "sizing_panel.png"), full_page=True)
-
-            box = page.locator(".widget-text", has_text="samples n").locator("input")
-            box.fill("50000")
-            box.press("Enter")
-            page.wait_for_function(
-                "before => { for (const tr of document.querySelectorAll('tr')) {"
-                " const td = tr.querySelectorAll('td');"
-                " if (td.length > 1 && td[0].innerText.trim() === 'width') return td[1].innerText.trim() !== before; }"
-                " return false; }",
-                arg=width_before,
-            )
-            assert spec_value(page, "width") != width_before
-            assert spec_value(page, "parameters (dense)") != params_before
-            page.screenshot(path=str(ARTIFACTS / "sizing_panel_changed.png"), full_page=True)
+            pg = browser.new_page(viewport=VIEWPORT)
+            pg.set_default_timeout(WAIT_MS)
+            pg.goto(url, wait_until="domcontentloaded", timeout=240_000)
+            try:
+                # the last panel's tabs: by then every cell has run
+                pg.wait_for_selector(".mr-study-panel .lm-TabBar-tab, .mr-study-panel .p-TabBar-tab",
+                                     timeout=240_000)
+            except Exception:
+                pg.screenshot(path=str(ARTIFACTS / "panels_page_failed.png"), full_page=True)
+                raise AssertionError("the panels did not render; voila log:\n" + log_path.read_text()[-3000:]
+                                     + "\npage text:\n" + pg.inner_text("body")[-3000:])
+            yield pg
         finally:
             browser.close()
+
+
+def shot(locator, name):
+    """Element screenshot to tests/artifacts/<name>.png, copied to docs/img/<name>.png.
+
+    Voila's page scrolls inside a container, where parts of an element outside the viewport come out blank;
+    so the viewport is first made taller than the element.
+    """
+    height = locator.evaluate("el => Math.ceil(el.getBoundingClientRect().height)")
+    locator.page.set_viewport_size({"width": VIEWPORT["width"], "height": max(VIEWPORT["height"], height + 200)})
+    locator.scroll_into_view_if_needed()
+    locator.page.wait_for_timeout(300)  # let the layout settle after the resize (not a check)
+    locator.screenshot(path=str(ARTIFACTS / f"{name}.png"), animations="disabled")
     DOCS_IMG.mkdir(parents=True, exist_ok=True)
-    for name in ("sizing_panel.png", "sizing_panel_changed.png"):
-        shutil.copyfile(ARTIFACTS / name, DOCS_IMG / name)
+    shutil.copyfile(ARTIFACTS / f"{name}.png", DOCS_IMG / f"{name}.png")
+
+
+def wait_images(panel, count):
+    """Wait until ``count`` figure images of the panel have been drawn (loaded with a real size)."""
+    panel.page.wait_for_function(
+        "([el, count]) => Array.from(el.querySelectorAll('img'))"
+        ".filter(i => i.complete && i.naturalWidth > 50 && i.offsetParent !== null).length >= count",
+        arg=[panel.element_handle(), count],
+    )
+
+
+def table_value(panel, quantity):
+    """Text of the value cell next to the cell reading exactly ``quantity`` in a panel's tables."""
+    return panel.evaluate(
+        "(el, q) => { for (const tr of el.querySelectorAll('tr')) { const td = tr.querySelectorAll('td');"
+        " if (td.length > 1 && td[0].innerText.trim() === q) return td[1].innerText.trim(); } return null; }",
+        quantity,
+    )
+
+
+def wait_value_changes(panel, quantity, before):
+    panel.page.wait_for_function(
+        "([el, q, before]) => { for (const tr of el.querySelectorAll('tr')) { const td = tr.querySelectorAll('td');"
+        " if (td.length > 1 && td[0].innerText.trim() === q) return td[1].innerText.trim() !== before; }"
+        " return false; }",
+        arg=[panel.element_handle(), quantity, before],
+    )
+
+
+def assert_no_error(panel):
+    text = panel.inner_text()
+    assert "failed:" not in text and "Traceback" not in text, text[-2000:]
+
+
+def type_into(panel, description, value):
+    """Fill the text box of the control labelled ``description`` and press Enter."""
+    box = panel.locator(".widget-inline-hbox", has=panel.page.locator(f"label:text-is('{description}')")).locator(
+        "input").first
+    box.fill(str(value))
+    box.press("Enter")
+
+
+def test_sizing_panel(page):
+    panel = page.locator(".mr-sizing-panel")
+    panel.locator("text=depth (hidden layers)").wait_for()
+    wait_images(panel, 1)
+    assert_no_error(panel)
+    width_before = table_value(panel, "width")
+    params_before = table_value(panel, "parameters (dense)")
+    shot(panel, "sizing_panel")
+
+    type_into(panel, "samples n", 50000)
+    wait_value_changes(panel, "width", width_before)
+    assert table_value(panel, "width") != width_before
+    assert table_value(panel, "parameters (dense)") != params_before
+    assert "n=50,000" in panel.inner_text()
+    assert_no_error(panel)
+    shot(panel, "sizing_panel_changed")
+
+
+def test_geometry_panel(page):
+    panel = page.locator(".mr-geometry-panel")
+    panel.locator("text=consensus").first.wait_for()
+    panel.locator("text=N(r) slope").wait_for()
+    wait_images(panel, 4)  # dimension profile, PCA spectra, N(r), reach histogram
+    assert_no_error(panel)
+    charts_before = table_value(panel, "charts")
+    radius_before = table_value(panel, "chart radius")
+    assert "rule" in radius_before or "reach" in radius_before, radius_before
+    shot(panel, "geometry_panel")
+
+    type_into(panel, "chart radius (0: rule)", 0.6)
+    wait_value_changes(panel, "chart radius", radius_before)
+    assert table_value(panel, "chart radius").startswith("0.600")
+    assert table_value(panel, "charts") != charts_before
+    assert_no_error(panel)
+
+
+def test_curve_panel(page):
+    panel = page.locator(".mr-curve-panel")
+    panel.locator("text=local slopes").first.wait_for()
+    panel.locator("text=samples needed").wait_for()
+    wait_images(panel, 2)  # learning curves, local slopes
+    assert "16 / 16 cells" in panel.inner_text()
+    assert table_value(panel, "warning")  # a plan from an unverified fit says so
+    assert_no_error(panel)
+    model_before = table_value(panel, "model")
+    shot(panel, "curve_panel")
+
+    panel.locator(".widget-toggle-button", has_text="fit").first.click()
+    wait_value_changes(panel, "model", model_before)
+    assert table_value(panel, "model").startswith("floor_fit"), table_value(panel, "model")
+    assert "fitted" in table_value(panel, "model")
+    assert table_value(panel, "exponent")  # still shown with its interval
+    assert_no_error(panel)
+
+    needed_before = table_value(panel, "samples needed")
+    type_into(panel, "target error", 0.1)
+    wait_value_changes(panel, "samples needed", needed_before)
+    assert table_value(panel, "samples needed") != needed_before
+    assert_no_error(panel)
+
+
+def test_study_panel(page):
+    panel = page.locator(".mr-study-panel")
+    panel.locator("text=consensus").first.wait_for()
+    wait_images(panel, 4)  # the geometry tab's figures
+    assert_no_error(panel)
+    shot(panel, "study_panel")
+
+    panel.locator(".lm-TabBar-tab, .p-TabBar-tab", has_text="Learning curves").first.click()
+    panel.locator("text=local slopes").first.wait_for()
+    wait_images(panel, 2)
+    assert_no_error(panel)
+    shot(panel, "study_panel_curves")

@@ -104,6 +104,7 @@ def plot_local_slopes(fits, ax=None):
         if np.all(np.isfinite(fit.interval)):
             ax.axhspan(fit.interval[0], fit.interval[1], color=line.get_color(), alpha=0.12)
     ax.set_xscale("log")
+    _plain_log_ticks(ax)
     ax.set_xlabel("n (geometric midpoint of successive sizes)")
     ax.set_ylabel("local slope of the excess error")
     ax.set_title("Local slopes (a single power law keeps them level)")

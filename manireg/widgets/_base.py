@@ -138,7 +138,9 @@ class Panel(widgets.VBox):
         main = _in_kernel() and threading.current_thread() is threading.main_thread()
         with (self.out if main else contextlib.nullcontext()):
             if main:
-                self.out.clear_output(wait=True)
+                # clear now, not at the next output: a call that prints nothing must not leave the
+                # previous call's error on screen
+                self.out.clear_output()
             try:
                 with _WARN_LOCK, warnings.catch_warnings(record=True) as caught:
                     warnings.simplefilter("always")
@@ -180,8 +182,11 @@ class Panel(widgets.VBox):
 
     @staticmethod
     def _image():
-        """An empty PNG image widget, hidden until a figure is drawn into it."""
-        return widgets.Image(format="png", layout=widgets.Layout(display="none"))
+        """An empty PNG image widget, hidden until a figure is drawn into it.
+
+        ``align_self="flex-start"`` keeps the figure at its drawn size: box children are stretched by default,
+        which distorted figures beside taller columns."""
+        return widgets.Image(format="png", layout=widgets.Layout(display="none", align_self="flex-start"))
 
     def results(self):  # pragma: no cover - overridden
         raise NotImplementedError
