@@ -123,6 +123,13 @@ def write_report(out_dir: str, title: str, sections: list, summary: dict, *, sav
     return {"html": html_path, "summary": json_path, "figures": [os.path.join(fig_dir, f) for f in figure_files] if save_png else []}
 
 
+def _text(v) -> str:
+    """A value for a report table: floats with 4 significant digits, everything else as text."""
+    if isinstance(v, float):
+        return f"{v:.4g}"
+    return str(v)
+
+
 def _theory_span(t):
     if t is None:
         return None
@@ -181,7 +188,7 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, study=
     summary = {"title": title, "data": data, "settings": settings or {}, "versions": package_versions()}
 
     sec = ReportSection("Data")
-    sec.tables.append(("", pd.DataFrame([(k, str(v)) for k, v in data.items()], columns=["item", "value"])))
+    sec.tables.append(("", pd.DataFrame([(k, _text(v)) for k, v in data.items()], columns=["item", "value"])))
     sections.append(sec)
 
     if geometry is not None:
@@ -293,7 +300,7 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, study=
         sections.append(sec)
 
     sec = ReportSection("Settings, seeds and versions")
-    sec.tables.append(("Settings", pd.DataFrame([(k, str(v)) for k, v in (settings or {}).items()], columns=["setting", "value"])))
+    sec.tables.append(("Settings", pd.DataFrame([(k, _text(v)) for k, v in (settings or {}).items()], columns=["setting", "value"])))
     sec.tables.append(("Versions", pd.DataFrame(list(summary["versions"].items()), columns=["package", "version"])))
     sections.append(sec)
     return sections, summary

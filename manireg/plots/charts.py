@@ -43,6 +43,9 @@ def plot_spectra(summary, *, ax=None):
     ax.plot(comps, med, "o-", label="median")
     ax.axvline(summary.dimension + 0.5, color="k", ls="--", lw=1, label=f"d = {summary.dimension}")
     ax.set_yscale("log")
+    positive = S[S > 0]
+    if positive.size:  # numerically zero ratios (beyond the neighbourhood's rank) would stretch the axis to 1e-30
+        ax.set_ylim(bottom=max(positive.min(), 1e-6 * positive.max()) / 2)
     ax.set_xlabel("principal component")
     ax.set_ylabel("explained variance ratio")
     ax.set_title(f"{summary.n_charts} charts, radius {summary.radius:.3g}")
@@ -67,6 +70,9 @@ def plot_chart_counts(counts, *, ax=None):
     if np.isfinite(counts.slope) and mask.any():
         rr = np.geomspace(r[mask].min(), r[mask].max(), 20)
         ax.loglog(rr, np.exp(counts.intercept) * rr**counts.slope, "-", label=f"slope {counts.slope:.2f}")
+    from matplotlib.ticker import NullFormatter
+
+    ax.xaxis.set_minor_formatter(NullFormatter())  # minor labels like 3x10^-1 collide
     ax.set_xlabel("chart radius r")
     ax.set_ylabel("number of charts N(r)")
     ax.legend(fontsize=8)
