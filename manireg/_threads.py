@@ -19,3 +19,19 @@ def single_threaded_blas():
 
     with threadpool_limits(limits=1, user_api="blas"):
         yield
+
+
+@contextmanager
+def torch_threads(n):
+    """Run the block with ``n`` torch threads (``None``: leave the setting alone), restored afterwards."""
+    if n is None:
+        yield
+        return
+    import torch
+
+    old = torch.get_num_threads()
+    torch.set_num_threads(int(n))
+    try:
+        yield
+    finally:
+        torch.set_num_threads(old)

@@ -167,7 +167,8 @@ def page(voila_server):
 
 
 def shot(locator, name):
-    """Element screenshot to tests/artifacts/<name>.png, copied to docs/img/<name>.png.
+    """Element screenshot to tests/artifacts/<name>.png, copied to docs/img/<name>.png when the environment
+    variable MANIREG_UPDATE_DOCS_IMG=1 is set (so an ordinary test run leaves the tracked docs alone).
 
     Voila's page scrolls inside a container, where parts of an element outside the viewport come out blank;
     so the viewport is first made taller than the element.
@@ -177,8 +178,9 @@ def shot(locator, name):
     locator.scroll_into_view_if_needed()
     locator.page.wait_for_timeout(300)  # let the layout settle after the resize (not a check)
     locator.screenshot(path=str(ARTIFACTS / f"{name}.png"), animations="disabled")
-    DOCS_IMG.mkdir(parents=True, exist_ok=True)
-    shutil.copyfile(ARTIFACTS / f"{name}.png", DOCS_IMG / f"{name}.png")
+    if os.environ.get("MANIREG_UPDATE_DOCS_IMG") == "1":  # refresh the docs' copies only when asked
+        DOCS_IMG.mkdir(parents=True, exist_ok=True)
+        shutil.copyfile(ARTIFACTS / f"{name}.png", DOCS_IMG / f"{name}.png")
 
 
 def wait_images(panel, count):

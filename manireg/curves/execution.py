@@ -30,11 +30,11 @@ References
 
 from __future__ import annotations
 
-import contextlib
 import datetime
 import os
 import traceback
 
+from manireg._threads import torch_threads as _torch_threads
 from manireg._validation import check_choice, check_int
 from manireg.curves.learners import make_learner
 from manireg.curves.sweep import ROW_COLUMNS, canonical_json
@@ -74,21 +74,6 @@ def make_units(cells) -> list:
     return units
 
 
-@contextlib.contextmanager
-def _threads(n):
-    try:
-        import torch
-    except ImportError:  # pragma: no cover - torch is a dependency
-        yield
-        return
-    old = torch.get_num_threads()
-    torch.set_num_threads(int(n))
-    try:
-        yield
-    finally:
-        torch.set_num_threads(old)
-
-
 def _base_row(cell):
     return {"key": cell.key, "study": cell.study, "learner": cell.learner.name, "n": cell.n,
             "repeat": cell.repeat, "seed": cell.seed, "config_json": canonical_json(cell.config)}
@@ -110,7 +95,7 @@ def run_unit(cells, data, torch_threads: int = 1) -> list:
     learner = make_learner(cells[0].learner)
     now = datetime.datetime.now(datetime.timezone.utc).isoformat(timespec="seconds")
     try:
-        with _threads(torch_threads):
+        with _torch_threads(torch_threads):
             metrics = learner.run(list(cells), data)
         status, error = "ok", None
     except Exception as exc:  # noqa: BLE001 - a failing cell is recorded, not raised

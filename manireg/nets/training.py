@@ -20,7 +20,6 @@ References
 
 from __future__ import annotations
 
-import contextlib
 import math
 import numbers
 import time
@@ -30,6 +29,8 @@ import numpy as np
 import torch
 from sklearn.base import BaseEstimator, RegressorMixin
 from sklearn.utils.validation import check_is_fitted
+
+from manireg._threads import torch_threads
 
 from manireg._results import ResultMixin
 from manireg._validation import (
@@ -238,19 +239,6 @@ class ReplicaResult(ResultMixin):
         return net.eval()
 
 
-@contextlib.contextmanager
-def _torch_threads(n):
-    if n is None:
-        yield
-        return
-    old = torch.get_num_threads()
-    torch.set_num_threads(int(n))
-    try:
-        yield
-    finally:
-        torch.set_num_threads(old)
-
-
 def auto_threads(spec, rows):
     """torch threads the trainer picks when ``TrainConfig.n_threads`` is None: 1 for a step under 2e8 flops.
 
@@ -455,7 +443,7 @@ class BatchedTrainer:
                 threads = self.config.n_threads
                 if threads is None:
                     threads = auto_threads(self.spec, sum(p.batch for p in reps))
-                with _torch_threads(threads):
+                with torch_threads(threads):
                     for i, res in zip(idx, self._fit_group(reps)):
                         results[i] = res
         self.results_ = results
@@ -488,7 +476,7 @@ class BatchedTrainer:
             chosen = [self.results_[replica]]
         else:
             chosen = self.results_
-        with _torch_threads(self.config.n_threads), torch.no_grad():
+        with torch_threads(self.config.n_threads), torch.no_grad():
             out = self._predict_states([r.state for r in chosen], X)
         return out[0] if replica is not None else out
 
@@ -864,5 +852,5 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
                 f"NetworkRegressor.predict: X has {X.shape[1]} features, but the model was fitted with "
                 f"{self.n_features_in_}."
             )
-        with _torch_threads(self.n_threads), torch.no_grad():
+        with torch_threads(self.n_threads), torch.no_grad():
             return self.model_(torch.from_numpy(X.astype(np.float32))).numpy().astype(np.float64)
