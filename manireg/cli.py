@@ -102,23 +102,29 @@ def _parse_learners(names, width_multipliers):
     return specs
 
 
-def _fit_and_plan(result, *, smoothness_range, target_error, floor, allow_unverified, seed):
-    """Fit every learner, run the extrapolation check and plan for the target error (or a default target).
-
-    ``floor="estimate"`` uses the known noise variance of synthetic data, else the study's noise estimate."""
-    from .curves import extrapolation_check, fit_all, plan_samples
-
-    kw = dict(smoothness=smoothness_range or result.s, dimension=result.d, ambient_dim=result.D, seed=seed)
+def _floor_settings(result, floor):
+    """``(floor, extra fit keywords)`` for a --floor choice: "known" is the known noise variance of synthetic
+    data; "estimate" uses it too when known, else the study's noise estimate; "fit" and None pass through."""
+    if floor == "known":
+        if result.noise_variance is None:
+            raise UsageError("--floor known needs data with a known noise variance (synthetic data); use --floor estimate or fit.")
+        return float(result.noise_variance), {}
     if floor == "estimate":
         nv = result.noise_variance if result.noise_variance is not None else result.noise_estimate
         if nv is None:
             raise UsageError("--floor estimate needs a noise estimate, and none is recorded for this study; use --floor fit.")
-        kw["noise_variance"] = float(nv)
-    fl = floor
-    if fl == "known":
-        if result.noise_variance is None:
-            raise UsageError("--floor known needs data with a known noise variance (synthetic data); use --floor estimate or fit.")
-        fl = float(result.noise_variance)
+        return floor, {"noise_variance": float(nv)}
+    return floor, {}
+
+
+def _read_out(result, *, smoothness_range, target_error, floor, allow_unverified, seed):
+    """Fit every learner, run the extrapolation check, plan for the target error (or a default target), print
+    the fits and the plan, and return the parts of the report (fits, extrapolation, plan, plan_note, sizing)."""
+    from .curves import extrapolation_check, fit_all, plan_samples
+    from .theory import sizing_table
+
+    fl, extra = _floor_settings(result, floor)
+    kw = dict(smoothness=smoothness_range or result.s, dimension=result.d, ambient_dim=result.D, seed=seed, **extra)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         fits = fit_all(result.rows, floor=fl, **kw)
@@ -145,10 +151,6 @@ def _fit_and_plan(result, *, smoothness_range, target_error, floor, allow_unveri
             note = f"No plan for target error {target:.4g}: {exc}"
         if plan is not None and target_error is None:
             note = "Target error not given: the plan halves the fitted excess error at the largest measured size."
-    return fits, checks, plan, note, sorted({str(w.message) for w in caught})
-
-
-def _print_fits(fits, plan, note):
     print()
     for f in fits:
         print(str(f))
@@ -157,6 +159,9 @@ def _print_fits(fits, plan, note):
         print("plan: " + str(plan))
     if note:
         print(note)
+    _print_warnings(sorted({str(w.message) for w in caught}))
+    sizing = sizing_table(sorted(set(int(n) for n in result.rows["n"])), result.d, result.s, result.D)
+    return {"fits": fits, "extrapolation": checks, "plan": plan, "plan_note": note, "sizing": sizing}
 
 
 def _write_report(out, title, **parts):
@@ -207,7 +212,6 @@ def _smoothness(args):
 
 def cmd_study(args) -> int:
     from .curves import Study
-    from .theory import sizing_table
 
     if args.workers is not None and args.scheduler is not None:
         raise UsageError("pass --workers N (local processes) or --scheduler ADDRESS (dask cluster), not both.")
@@ -226,23 +230,19 @@ def cmd_study(args) -> int:
     study = Study(X=table.X, y=table.y, sizes=args.sizes, repeats=args.repeats,
                   learners=_parse_learners(args.learners, args.width_multipliers), d=d, s=s, seed=args.seed,
                   label=args.label, store=store)
-    extra = {"source": args.data, "noise_estimate": study.noise_estimate()}
+    extra = {"source": args.data}
     if geo is not None:
         extra["geometry"] = geo.to_dict()
-    study.store.put_study({**study.data.metadata(study.spec), **extra})
     executor = "dask" if args.scheduler else ("processes" if args.workers else "inprocess")
     print(f"study '{args.label}': {len(study.cells())} cells (sizes {study.data.sizes}, {args.repeats} repeats), store {study.store.path}")
-    result = study.run(executor=executor, n_jobs=args.workers, scheduler=args.scheduler, progress=not args.quiet)
-    study.store.put_study({**study.data.metadata(study.spec), **extra})  # run() refreshed the metadata; keep ours beside it
+    result = study.run(executor=executor, n_jobs=args.workers, scheduler=args.scheduler, progress=not args.quiet,
+                       metadata=extra)
     print(f"noise variance estimate (first-neighbour): {result.noise_estimate:.4g}")
-    fits, checks, plan, note, notes = _fit_and_plan(result, smoothness_range=s_range, target_error=args.target_error,
-                                                    floor=args.floor, allow_unverified=args.allow_unverified, seed=args.seed)
-    _print_fits(fits, plan, note)
-    _print_warnings(notes)
-    sizing = sizing_table(sorted(set(int(n) for n in result.rows["n"])), result.d, result.s, result.D)
+    parts = _read_out(result, smoothness_range=s_range, target_error=args.target_error, floor=args.floor,
+                      allow_unverified=args.allow_unverified, seed=args.seed)
     paths = _write_report(out, f"manireg study: {os.path.basename(args.data)}",
                           data={"source": args.data, "target": args.target, "n_samples": table.n_samples, "ambient_dim": table.X.shape[1]},
-                          geometry=geo, sizing=sizing, study=result, fits=fits, plan=plan, plan_note=note, extrapolation=checks,
+                          geometry=geo, study=result, **parts,
                           settings={"seed": args.seed, "sizes": study.data.sizes, "repeats": args.repeats, "learners": args.learners,
                                     "width_multipliers": args.width_multipliers, "smoothness": s_range or s, "dimension": result.d,
                                     "dimension_source": result.d_source, "floor": args.floor, "store": study.store.path})
@@ -266,17 +266,7 @@ def cmd_plan(args) -> int:
         learner = args.learner or (learners[0] if len(learners) == 1 else None)
         if learner is None:
             raise UsageError(f"the store holds learners {learners}; pass --learner NAME.")
-        kw = {}
-        fl = args.floor
-        if fl == "known":
-            fl = result.noise_variance
-            if fl is None:
-                raise UsageError("--floor known needs synthetic data with a known noise variance; use --floor estimate or fit.")
-        elif fl == "estimate":
-            nv = result.noise_variance if result.noise_variance is not None else result.noise_estimate
-            if nv is None:
-                raise UsageError("no noise estimate is recorded in this store; use --floor fit.")
-            kw["noise_variance"] = float(nv)
+        fl, kw = _floor_settings(result, args.floor)
         fit = fit_exponent(result.rows, learner, floor=fl, smoothness=s, dimension=d, ambient_dim=result.D, seed=args.seed, **kw)
         print(str(fit))
         if args.target_error is None:
@@ -309,7 +299,6 @@ def cmd_plan(args) -> int:
 def cmd_report(args) -> int:
     from .curves import Study
     from .curves.store import ResultStore
-    from .theory import sizing_table
 
     if not os.path.exists(args.store):
         raise UsageError(f"no store at '{args.store}'. Pass the --store file a study was run with.")
@@ -319,16 +308,12 @@ def cmd_report(args) -> int:
         raise UsageError(f"study '{result.label}' in '{args.store}' has no rows yet; run the study first.")
     meta = ResultStore(args.store).study_meta(result.label)
     s_range = tuple(args.smoothness_range) if args.smoothness_range else None
-    fits, checks, plan, note, notes = _fit_and_plan(result, smoothness_range=s_range, target_error=args.target_error,
-                                                    floor=args.floor, allow_unverified=args.allow_unverified, seed=args.seed)
-    _print_fits(fits, plan, note)
-    _print_warnings(notes)
-    sizing = sizing_table(sorted(set(int(n) for n in result.rows["n"])), result.d, result.s, result.D)
+    parts = _read_out(result, smoothness_range=s_range, target_error=args.target_error, floor=args.floor,
+                      allow_unverified=args.allow_unverified, seed=args.seed)
     paths = _write_report(out, f"manireg study '{result.label}' (rebuilt from its store)",
                           data={"source": meta.get("source", "(recorded in the store)"), "n_samples": meta.get("n_total"),
                                 "ambient_dim": result.D, "fingerprint": meta.get("fingerprint")},
-                          geometry=meta.get("geometry"), sizing=sizing, study=result, fits=fits, plan=plan, plan_note=note,
-                          extrapolation=checks, settings={"store": args.store, "spec": result.spec, "floor": args.floor, "seed": args.seed})
+                          geometry=meta.get("geometry"), study=result, **parts, settings={"store": args.store, "spec": result.spec, "floor": args.floor, "seed": args.seed})
     print(f"\nreport: {paths['html']}\nsummary: {paths['summary']}")
     return 0
 
@@ -336,7 +321,6 @@ def cmd_report(args) -> int:
 def cmd_demo(args) -> int:
     from .curves import LearnerSpec, Study
     from .data import pebble_scenario
-    from .theory import sizing_table
 
     out = _out_dir(args.out)
     if args.quick:
@@ -359,21 +343,15 @@ def cmd_demo(args) -> int:
                                          learners=[LearnerSpec("net", params=net), LearnerSpec("knn")], store=store)
     print(f"\nstudy: {len(study.cells())} cells (sizes {sizes}, {repeats} repeats, learners net and knn), "
           f"sized with the estimated d = {d_hat:g} and s = {reg.smoothness}; store {study.store.path}")
-    result = study.run(progress=not args.quiet)
-    study.store.put_study({**study.data.metadata(study.spec), "noise_estimate": study.noise_estimate(), "geometry": geo.to_dict(),
-                           "source": "built-in pebble scenario"})
+    result = study.run(progress=not args.quiet, metadata={"geometry": geo.to_dict(), "source": "built-in pebble scenario"})
     # the demo shows a plan even from an unverified curve; the plan then carries its warning in plain words
     # (``manireg study`` refuses unless --allow-unverified is given)
-    fits, checks, plan, note, fnotes = _fit_and_plan(result, smoothness_range=None, target_error=None, floor="known",
-                                                     allow_unverified=True, seed=args.seed)
-    _print_fits(fits, plan, note)
-    _print_warnings(fnotes)
-    sizing = sizing_table(sizes, d_hat, reg.smoothness, m.ambient_dim)
+    parts = _read_out(result, smoothness_range=None, target_error=None, floor="known", allow_unverified=True, seed=args.seed)
     paths = _write_report(out, "manireg demo: pebble renderings",
                           data={"source": "built-in pebble scenario (manireg.data.pebble_scenario)", "n_samples": n,
                                 "ambient_dim": m.ambient_dim, "true_dimension": m.dimension, "smoothness": reg.smoothness,
                                 "noise_variance": reg.noise_variance},
-                          geometry=geo, sizing=sizing, study=result, fits=fits, plan=plan, plan_note=note, extrapolation=checks,
+                          geometry=geo, study=result, **parts,
                           settings={"seed": args.seed, "quick": args.quick, "sizes": sizes, "repeats": repeats,
                                     "dimension_used": d_hat, "floor": "known noise variance", "store": study.store.path},
                           true_dimension=m.dimension)

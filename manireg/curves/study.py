@@ -17,7 +17,6 @@ References
 
 from __future__ import annotations
 
-import dataclasses
 import json
 import os
 import tempfile
@@ -202,15 +201,16 @@ class Study:
         return list(self._cells)
 
     def run(self, executor="inprocess", n_jobs=None, scheduler=None, retry_failed=False, progress=True,
-            torch_threads=1, stop=None, on_unit=None) -> StudyResult:
+            torch_threads=1, stop=None, on_unit=None, metadata=None) -> StudyResult:
         """Run the missing cells and return every row of this study's cells.
 
         See :func:`manireg.curves.execution.run_cells` for the arguments (``stop`` pauses between units,
-        ``on_unit`` is called after each stored unit). Interrupting (Ctrl-C) keeps what finished; calling
-        ``run`` again resumes.
+        ``on_unit`` is called after each stored unit). ``metadata`` (a dict, e.g. the geometry read-out) is
+        stored with the study's own metadata, so a report rebuilt from the store has it. Interrupting (Ctrl-C)
+        keeps what finished; calling ``run`` again resumes.
         """
         cells = self.cells()
-        self.store.put_study({**self.data.metadata(self.spec), "noise_estimate": self.noise_estimate()})
+        self.store.put_study({**self.data.metadata(self.spec), "noise_estimate": self.noise_estimate(), **(metadata or {})})
         summary = run_cells(cells, self.data, self.store, executor=executor, n_jobs=n_jobs, scheduler=scheduler,
                             progress=progress, retry_failed=retry_failed, torch_threads=torch_threads,
                             stop=stop, on_unit=on_unit)

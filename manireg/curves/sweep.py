@@ -27,7 +27,6 @@ from __future__ import annotations
 
 import hashlib
 import json
-import math
 import numbers
 from dataclasses import dataclass, field
 

@@ -32,7 +32,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .._results import ResultMixin
-from .._validation import DataValidationError, check_float, check_int, check_points, make_rng, warn
+from .._validation import check_float, check_int, check_points, make_rng, warn
 from .neighbors import kneighbors
 
 __all__ = [
