@@ -20,3 +20,20 @@ def tmp_table(tmp_path):
     path = tmp_path / "table.csv"
     df.to_csv(path, index=False)
     return path
+
+
+@pytest.fixture
+def count_queries(monkeypatch):
+    """Record the k of every exact neighbour query (after clearing the neighbour cache)."""
+    from manireg.geometry import neighbors
+
+    calls = []
+    original = neighbors._exact
+
+    def counting(points, k):
+        calls.append(k)
+        return original(points, k)
+
+    monkeypatch.setattr(neighbors, "_exact", counting)
+    neighbors.clear_cache()
+    return calls

@@ -320,18 +320,8 @@ def test_local_values_map_back_to_rows():
                           LocalPCADimension(n_boot=0).fit(X).local_dimension_)
 
 
-def test_estimators_share_one_neighbour_query(monkeypatch):
-    from manireg.geometry import neighbors
-
-    calls = []
-    original = neighbors._exact
-
-    def counting(points, k):
-        calls.append(k)
-        return original(points, k)
-
-    monkeypatch.setattr(neighbors, "_exact", counting)
-    neighbors.clear_cache()
+def test_estimators_share_one_neighbour_query(count_queries):
+    calls = count_queries
     X = sphere(700, 3, seed=11).points
     MLEDimension(n_boot=0).fit(X)
     TwoNNDimension().fit(X)

@@ -8,7 +8,6 @@ import pytest
 
 from manireg._validation import DataValidationError
 from manireg.data.manifolds import graph_manifold, sphere
-from manireg.geometry import neighbors
 from manireg.geometry.dimension import (
     DimensionProfile,
     DimensionReport,
@@ -17,20 +16,6 @@ from manireg.geometry.dimension import (
     dimension_profile,
     estimate_dimension,
 )
-
-
-@pytest.fixture
-def count_queries(monkeypatch):
-    calls = []
-    original = neighbors._exact
-
-    def counting(points, k):
-        calls.append(k)
-        return original(points, k)
-
-    monkeypatch.setattr(neighbors, "_exact", counting)
-    neighbors.clear_cache()
-    return calls
 
 
 def test_profile_shape_and_one_query(count_queries):
