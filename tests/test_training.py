@@ -9,7 +9,7 @@ from sklearn.preprocessing import StandardScaler
 
 from manireg._validation import DataValidationError
 from manireg.nets import BatchedTrainer, NetworkRegressor, ReplicaTask, TrainConfig, count_nonzero_weights, lr_at_step
-from manireg.theory import size_network
+from manireg.theory import SizingConstants, size_network
 
 D = 10
 
@@ -236,3 +236,82 @@ def test_hand_written_gradients_and_fused_adam_match_autograd_and_torch_adam():
         opt.step()
     for a, b in zip(p_fused, p_ref):
         torch.testing.assert_close(a, b.detach(), rtol=1e-5, atol=1e-6)
+
+
+def test_replica_numbers_do_not_depend_on_the_stack():
+    # Work units may be split over workers (manireg.curves.execution.make_units), which is only sound if a
+    # replica's numbers are bit-for-bit the same whichever replicas share its stack. Minibatch replicas
+    # of one n, both arithmetics, four together against two plus two.
+    spec = size_network(600, 1, 1, input_dim=D)
+    tasks = make_tasks([600] * 4, seeds=[0, 1, 2, 3])
+    for precision in ("float32", "bfloat16"):
+        cfg = config(max_steps=60, min_steps=0, patience_steps=20, eval_every=10, batch_size=64, precision=precision)
+        together = BatchedTrainer(spec, cfg).fit(tasks)
+        apart = BatchedTrainer(spec, cfg).fit(tasks[:2]) + BatchedTrainer(spec, cfg).fit(tasks[2:])
+        for a, b in zip(together, apart):
+            assert a.precision == b.precision == precision
+            assert (a.steps, a.best_step, a.val_mse, a.train_mse) == (b.steps, b.best_step, b.val_mse, b.train_mse)
+            for wa, wb in zip(a.state["weights"] + a.state["biases"], b.state["weights"] + b.state["biases"]):
+                np.testing.assert_array_equal(wa, wb)
+
+
+def test_bfloat16_gradients_follow_float32():
+    # Mixed precision only rounds the hidden-to-hidden products; the first and last layers and the loss
+    # stay float32. Against the float32 gradient (itself checked against autograd above): the last
+    # layer's gradient agrees to bfloat16 rounding, the whole gradient points the same way. A wrong cast
+    # or a dropped layer breaks either check.
+    from manireg.nets.training import _loss_grads
+
+    g = torch.Generator().manual_seed(1)
+    R, B, sizes = 2, 64, [D, 48, 48, 48, 1]
+    Ws = [torch.randn(R, a, b, generator=g) * (2.0 / a) ** 0.5 for a, b in zip(sizes[:-1], sizes[1:])]
+    bs = [0.1 * torch.randn(R, 1, b, generator=g) for b in sizes[1:]]
+    x, y = torch.randn(R, B, D, generator=g), torch.randn(R, B, generator=g)
+    full = _loss_grads(Ws, bs, x, y, 1.0 / B)
+    low = _loss_grads(Ws, bs, x, y, 1.0 / B, low=torch.bfloat16)
+    assert all(t.dtype == torch.float32 for t in low)
+    last = len(Ws) - 1
+    # bfloat16 keeps 8 significant bits: relative rounding 2^-8 ~ 0.4 % per product (IEEE-style format
+    # definition); the last layer sees one rounded activation per row.
+    assert float((low[last] - full[last]).norm() / full[last].norm()) < 0.02
+    flat_f = torch.cat([t.reshape(R, -1) for t in full], dim=1)
+    flat_l = torch.cat([t.reshape(R, -1) for t in low], dim=1)
+    cosine = torch.nn.functional.cosine_similarity(flat_f, flat_l, dim=1)
+    assert float(cosine.min()) > 0.98
+    # and the float32 path ignores the flag it was not given
+    torch.testing.assert_close(_loss_grads(Ws, bs, x, y, 1.0 / B, low=None)[0], full[0], rtol=0, atol=0)
+
+
+def test_bfloat16_training_reaches_float32_error():
+    # The returned network is the float32 master weights; train/val MSE are float32 evaluations of it.
+    spec = size_network(800, 1, 1, input_dim=D)
+    tasks = make_tasks([800, 800], seeds=[0, 1])
+    X_test, _, f_test = circle_data(500, seed=77)
+    mse = {}
+    for precision in ("float32", "bfloat16"):
+        trainer = BatchedTrainer(spec, config(max_steps=400, precision=precision))
+        res = trainer.fit(tasks)
+        assert [r.precision for r in res] == [precision] * 2
+        for i, (r, t) in enumerate(zip(res, tasks)):
+            pred_val = trainer.predict(t.X_val, replica=i)
+            assert r.val_mse == pytest.approx(float(np.mean((pred_val - t.y_val) ** 2)), rel=1e-5)
+        mse[precision] = float(np.mean((trainer.predict(X_test) - f_test) ** 2))
+    # noise variance is 0.0025; both fits are well below it, and bfloat16 costs at most 25 % in error
+    assert mse["float32"] < 0.0025 and mse["bfloat16"] < 1.25 * mse["float32"] + 1e-4, mse
+
+
+def test_precision_choice():
+    from manireg.nets.training import BF16_MIN_FLOPS, native_bfloat16, resolve_precision
+
+    big = size_network(8192, 3, 1, input_dim=64)
+    small = size_network(100, 1, 1, input_dim=3)
+    shallow = size_network(8192, 3, 1, input_dim=64, constants=SizingConstants(depth_min=1, depth_max=1))
+    assert 6.0 * big.n_parameters * 128 >= BF16_MIN_FLOPS > 6.0 * small.n_parameters * 80
+    auto = TrainConfig()
+    assert resolve_precision(auto, big, 128) == ("bfloat16" if native_bfloat16() else "float32")
+    assert resolve_precision(auto, small, 80) == "float32"
+    assert resolve_precision(auto, shallow, 128) == "float32"  # no hidden-to-hidden layer to round
+    assert resolve_precision(TrainConfig(precision="float32"), big, 128) == "float32"
+    assert resolve_precision(TrainConfig(precision="bfloat16"), small, 80) == "bfloat16"
+    with pytest.raises(ValueError, match="precision"):
+        TrainConfig(precision="half")

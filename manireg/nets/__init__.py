@@ -1,40 +1,17 @@
-"""ReLU network builders and the batched trainer."""
+"""ReLU network builders, the batched trainer and a scikit-learn style regressor.
 
-from manireg.nets.builders import (
-    ClipOutput,
-    OutputScale,
-    ReLUNetwork,
-    ResidualConvNetwork,
-    Standardize,
-    apply_masks,
-    build_conv_network,
-    build_network,
-    count_nonzero_weights,
-    count_parameters,
-    init_parameters,
-    project_weights,
-    prune_to_budget,
-)
-from manireg.nets.training import BatchedTrainer, NetworkRegressor, ReplicaResult, ReplicaTask, TrainConfig, lr_at_step
+Names are imported on first use (see :mod:`manireg._lazy`): the trainer does not need scikit-learn, the
+regressor does.
+"""
 
-__all__ = [
-    "build_network",
-    "build_conv_network",
-    "init_parameters",
-    "project_weights",
-    "prune_to_budget",
-    "apply_masks",
-    "count_parameters",
-    "count_nonzero_weights",
-    "ClipOutput",
-    "OutputScale",
-    "Standardize",
-    "ReLUNetwork",
-    "ResidualConvNetwork",
-    "TrainConfig",
-    "ReplicaTask",
-    "ReplicaResult",
-    "BatchedTrainer",
-    "NetworkRegressor",
-    "lr_at_step",
-]
+from manireg._lazy import lazy_namespace
+
+_EXPORTS = {
+    ".builders": ["build_network", "build_conv_network", "init_parameters", "project_weights", "prune_to_budget",
+                  "apply_masks", "count_parameters", "count_nonzero_weights", "ClipOutput", "OutputScale",
+                  "Standardize", "ReLUNetwork", "ResidualConvNetwork"],
+    ".training": ["TrainConfig", "ReplicaTask", "ReplicaResult", "BatchedTrainer", "lr_at_step", "resolve_precision"],
+    ".regressor": ["NetworkRegressor"],
+}
+
+__getattr__, __dir__, __all__ = lazy_namespace(__name__, _EXPORTS)

@@ -1,4 +1,5 @@
-"""Batched training of many ReLU-network replicas at once, and a scikit-learn style regressor.
+"""Batched training of many ReLU-network replicas at once (the scikit-learn style regressor built on it is
+:class:`manireg.nets.regressor.NetworkRegressor`).
 
 :class:`BatchedTrainer` trains R replicas of one architecture together: the weights of layer l are one
 tensor of shape (R, fan_in, fan_out) and every layer is a single ``torch.baddbmm``. Each replica has its
@@ -16,6 +17,8 @@ References
 .. [3] L. Prechelt, "Early stopping - but when?", in Neural Networks: Tricks of the Trade (1998).
 .. [4] M. Chen, H. Jiang, W. Liao, T. Zhao, Information and Inference 11 (2022).
 .. [5] J. Schmidt-Hieber, Ann. Statist. 48 (2020).
+.. [6] P. Micikevicius et al., "Mixed precision training", ICLR 2018.
+.. [7] D. Kalamkar et al., "A study of BFLOAT16 for deep learning training", arXiv:1905.12322 (2019).
 """
 
 from __future__ import annotations
@@ -27,8 +30,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import torch
-from sklearn.base import BaseEstimator, RegressorMixin
-from sklearn.utils.validation import check_is_fitted
 
 from manireg._threads import torch_threads
 
@@ -40,15 +41,16 @@ from manireg._validation import (
     check_int,
     check_points,
     check_target,
-    make_rng,
 )
 from manireg.nets.builders import ReLUNetwork, build_network, init_parameters
-from manireg.theory.sizing import ArchitectureSpec, SizingConstants, size_network
+from manireg.theory.sizing import ArchitectureSpec
 
-__all__ = ["TrainConfig", "ReplicaTask", "ReplicaResult", "BatchedTrainer", "NetworkRegressor", "lr_at_step",
-           "auto_threads"]
+__all__ = ["TrainConfig", "ReplicaTask", "ReplicaResult", "BatchedTrainer", "lr_at_step", "auto_threads",
+           "resolve_precision", "native_bfloat16"]
 
 STOP_REASONS = ("patience", "step_cap", "time_cap")
+PRECISIONS = ("auto", "float32", "bfloat16")
+BF16_MIN_FLOPS = 8e6
 
 
 @dataclass(frozen=True)
@@ -105,6 +107,19 @@ class TrainConfig:
         When pruning happens, as a fraction of ``max_steps``.
     standardize_target : bool, default=True
         Train on ``(y - mean) / std`` of each replica's training targets (predictions are mapped back).
+    precision : {"auto", "float32", "bfloat16"}, default="auto"
+        Arithmetic of the training steps. ``"float32"``: everything in float32. ``"bfloat16"``: mixed
+        precision [6]_ [7]_: the hidden-to-hidden matrix products (forward, backward and the validation
+        passes during training) take bfloat16 copies of float32 master weights and keep their activations
+        in bfloat16; the first and last layers, the loss, the gradients handed to Adam, Adam itself and
+        the returned weights are float32. bfloat16 has float32's exponent range, so no loss scaling is
+        needed [7]_. The returned network is the float32 master weights, and ``train_mse``/``val_mse``
+        and every prediction are computed in float32. ``"auto"``: ``"bfloat16"`` for a group whose step
+        costs at least ``BF16_MIN_FLOPS`` when the CPU multiplies bfloat16 natively (AVX512-BF16 or AMX;
+        emulated bfloat16 is slower than float32), else ``"float32"``; see :func:`resolve_precision`.
+        Each :class:`ReplicaResult` records the precision used. bfloat16 stalls near a test MSE of 1e-6
+        of the target's variance (measured on an easy noise-free target; float32 went 20x lower): for a
+        noise-free study whose errors go below about 1e-5 of the target variance use ``"float32"``.
     n_threads : int or None, default=None
         torch intra-op threads during ``fit``/``predict`` (restored afterwards). None chooses per group:
         one thread when a training step costs under 2e8 flops (thread start-up then costs more than it
@@ -130,6 +145,7 @@ class TrainConfig:
     prune: bool = False
     prune_at: float = 0.5
     standardize_target: bool = True
+    precision: str = "auto"
     n_threads: int | None = None
 
     def __post_init__(self):
@@ -151,6 +167,7 @@ class TrainConfig:
         check_float(self.validation_fraction, "validation_fraction", owner=o, low=0.0, high=1.0,
                     low_open=True, high_open=True)
         check_float(self.prune_at, "prune_at", owner=o, low=0.0, high=1.0, high_open=True)
+        check_choice(self.precision, "precision", owner=o, choices=PRECISIONS)
         if self.n_threads is not None:
             check_int(self.n_threads, "n_threads", owner=o, low=1)
 
@@ -206,6 +223,8 @@ class ReplicaResult(ResultMixin):
     seed : int
     nonzero_weights : int
         Nonzero weight entries of the restored network.
+    precision : {"float32", "bfloat16"}
+        Arithmetic of the training steps (see ``TrainConfig.precision``); the MSEs are float32 either way.
     state : dict
         Trained weights and scalings (not in ``to_dict``); see :meth:`to_module`.
     """
@@ -222,6 +241,7 @@ class ReplicaResult(ResultMixin):
     n_val: int
     seed: int
     nonzero_weights: int
+    precision: str = "float32"
     state: dict = field(default_factory=dict, repr=False)
 
     _skip_in_dict = ("state",)
@@ -249,6 +269,43 @@ def auto_threads(spec, rows):
     same policy through this function.
     """
     return 1 if 6.0 * spec.n_parameters * rows < 2e8 else None
+
+
+def native_bfloat16() -> bool:
+    """True when this CPU multiplies bfloat16 matrices in hardware (AVX512-BF16 or AMX tiles).
+
+    Other CPUs run bfloat16 products through a slower emulation, so ``precision="auto"`` keeps float32
+    there. Uses torch's CPU feature probes (private helpers of the pinned torch; False when absent).
+    """
+    probes = ("_is_avx512_bf16_supported", "_is_amx_tile_supported")
+    cpu = getattr(torch, "cpu", None)
+    for name in probes:
+        fn = getattr(cpu, name, None)
+        try:
+            if fn is not None and bool(fn()):
+                return True
+        except Exception:  # pragma: no cover - a probe that fails means "not known to be native"
+            continue
+    return False
+
+
+def resolve_precision(config, spec, rows) -> str:
+    """The arithmetic (``"float32"`` or ``"bfloat16"``) of a group of replicas under ``config.precision``.
+
+    ``rows`` is the number of rows in one replica's optimiser step (its batch). An explicit
+    ``"float32"``/``"bfloat16"`` is returned as is. ``"auto"`` gives ``"bfloat16"`` when the CPU
+    multiplies bfloat16 natively (:func:`native_bfloat16`), the net has at least one hidden-to-hidden
+    layer (the only layers that change precision) and one replica's step costs at least
+    ``BF16_MIN_FLOPS`` (``6 * n_parameters * rows``); below that the casts cost more than the faster
+    products save (``python tests/benchmarks/bench_training.py --precision`` measures the crossover). The
+    choice depends on one replica, never on how many share the stack, so a replica's numbers do not
+    depend on how its cells were grouped.
+    """
+    if config.precision != "auto":
+        return config.precision
+    if spec.depth < 2 or 6.0 * spec.n_parameters * rows < BF16_MIN_FLOPS:
+        return "float32"
+    return "bfloat16" if native_bfloat16() else "float32"
 
 
 def _derived_seed(seed: int, stream: int) -> int:
@@ -327,35 +384,82 @@ def _row_weights(counts, length):
     return w
 
 
-def _loss_grads(Ws, bs, x, y, w):
+def _loss_grads(Ws, bs, x, y, w, low=None):
     """Gradients of ``sum_r sum_i w_ri (z_ri - y_ri)^2`` for the stacked net, by hand (no autograd).
 
     ``w`` is a (R, B) tensor of row weights or a float (the same weight for every row). Returns the weight
-    gradients (R, in, out) followed by the bias gradients (R, 1, out), in the order of ``Ws + bs``. Writing
-    the backward pass out saves autograd's graph bookkeeping, which dominates a step of a small net.
+    gradients (R, in, out) followed by the bias gradients (R, 1, out), in the order of ``Ws + bs``, all in
+    float32. Writing the backward pass out saves autograd's graph bookkeeping, which dominates a step of a
+    small net.
+
+    ``low`` (a torch dtype, e.g. ``torch.bfloat16``) runs the hidden-to-hidden layers in that dtype (mixed
+    precision): their weights are cast from the float32 masters for the step, activations and the
+    gradients flowing between hidden layers are kept in ``low`` (the matrix products accumulate in
+    float32 inside the kernel), and the first and last layers, the loss, the bias-gradient sums and every
+    returned gradient stay float32. ``None``: everything float32.
     """
-    hs = [x]
     last = len(Ws) - 1
+    Wc = _cast_hidden(Ws, low)
+    bc = _cast_hidden(bs, low)
+    hs = [x]
     for i in range(last):
-        hs.append(torch.baddbmm(bs[i], hs[-1], Ws[i]).clamp_min_(0.0))
-    z = torch.baddbmm(bs[last], hs[-1], Ws[last])
+        h = torch.baddbmm(bc[i], hs[-1], Wc[i]).clamp_min_(0.0)
+        hs.append(h.to(low) if (low is not None and i == 0 and last > 1) else h)
+    h_out = hs[-1] if low is None else hs[-1].float()
+    z = _output_layer(h_out, Ws[last], bs[last])
     g = z.sub_(y.unsqueeze(-1)).mul_(2.0 * w if isinstance(w, float) else 2.0 * w.unsqueeze(-1))
     gW, gb = [None] * len(Ws), [None] * len(Ws)
     for i in range(last, -1, -1):
-        gW[i] = torch.bmm(hs[i].transpose(1, 2), g)
-        gb[i] = g.sum(dim=1, keepdim=True)
+        h_in = h_out if i == last else hs[i]
+        gW[i] = torch.bmm(h_in.transpose(1, 2), g)
+        gb[i] = g.sum(dim=1, keepdim=True, dtype=torch.float32)
+        if gW[i].dtype != torch.float32:
+            gW[i] = gW[i].float()
         if i > 0:
-            g = torch.ops.aten.threshold_backward(torch.bmm(g, Ws[i].transpose(1, 2)), hs[i], 0.0)
+            mask = h_out if i == last else hs[i]
+            g = torch.ops.aten.threshold_backward(torch.bmm(g, Wc[i].transpose(1, 2)), mask, 0.0)
+            if low is not None and i == last and last > 1:
+                g = g.to(low)
+            elif low is not None and i == 1:
+                g = g.float()
     return gW + gb
 
 
-def _forward(Ws, bs, x):
-    """Stacked forward pass: x (R, B, D) -> (R, B) in standardised target units."""
-    h = x
+def _replica_slabs(*stacks):
+    """For each list of stacked (R, ...) tensors, the list of its per-replica views (tensor-major)."""
+    return [[v for t in stack for v in t.unbind(0)] for stack in stacks]
+
+
+def _cast_hidden(tensors, low):
+    """``tensors`` with the hidden-to-hidden entries (all but the first and the last) cast to ``low``."""
+    if low is None or len(tensors) <= 2:
+        return list(tensors)
+    return [tensors[0]] + [t.to(low) for t in tensors[1:-1]] + [tensors[-1]]
+
+
+def _forward(Ws, bs, x, low=None):
+    """Stacked forward pass: x (R, B, D) -> (R, B) in standardised target units (``low`` as in
+    :func:`_loss_grads`)."""
     last = len(Ws) - 1
+    Wc, bc = _cast_hidden(Ws, low), _cast_hidden(bs, low)
+    h = x
     for i in range(last):
-        h = torch.relu(torch.baddbmm(bs[i], h, Ws[i]))
-    return torch.baddbmm(bs[last], h, Ws[last]).squeeze(-1)
+        h = torch.baddbmm(bc[i], h, Wc[i]).clamp_min_(0.0)
+        if low is not None and i == 0 and last > 1:
+            h = h.to(low)
+    if h.dtype != torch.float32:
+        h = h.float()
+    return _output_layer(h, Ws[last], bs[last]).squeeze(-1)
+
+
+def _output_layer(h, W, b):
+    """The width-1 output layer, ``h @ W + b`` for h (R, B, w), W (R, w, 1), b (R, 1, 1).
+
+    Written as a product and a row sum, not ``baddbmm``: a one-column matrix product takes a
+    matrix-vector kernel when the stack holds a single replica and a batched one otherwise, and the two
+    round differently, so a replica's numbers would change when the others stop or sit in another stack.
+    """
+    return (h * W.transpose(1, 2)).sum(dim=-1, keepdim=True).add_(b)
 
 
 class BatchedTrainer:
@@ -440,11 +544,13 @@ class BatchedTrainer:
             for key in sorted(groups, key=str):
                 idx = groups[key]
                 reps = [prepared[i] for i in idx]
+                rows = sum(p.batch for p in reps)
                 threads = self.config.n_threads
                 if threads is None:
-                    threads = auto_threads(self.spec, sum(p.batch for p in reps))
+                    threads = auto_threads(self.spec, rows)
+                precision = resolve_precision(self.config, self.spec, reps[0].batch)
                 with torch_threads(threads):
-                    for i, res in zip(idx, self._fit_group(reps)):
+                    for i, res in zip(idx, self._fit_group(reps, precision)):
                         results[i] = res
         self.results_ = results
         return results
@@ -498,8 +604,9 @@ class BatchedTrainer:
             pred = pred.clamp(-b, b)
         return pred.numpy().astype(np.float64)
 
-    def _fit_group(self, reps):
+    def _fit_group(self, reps, precision="float32"):
         cfg, spec = self.config, self.spec
+        low = torch.bfloat16 if precision == "bfloat16" else None
         R = len(reps)
         t0 = time.perf_counter()
         full = reps[0].full
@@ -513,6 +620,7 @@ class BatchedTrainer:
         params = Ws + bs
         m1 = [torch.zeros_like(p) for p in params]
         m2 = [torch.zeros_like(p) for p in params]
+        slabs = _replica_slabs(params, m1, m2)
         best = [p.clone() for p in params]
         adam_step = torch.zeros((), dtype=torch.float32)  # shared step counter of the fused Adam kernel
         # ---- data
@@ -551,7 +659,7 @@ class BatchedTrainer:
         wb = spec.weight_bound
 
         def val_mse():
-            z = _forward(params[:L], params[L:], Xv)
+            z = _forward(params[:L], params[L:], Xv, low)
             pred = ym + ysc * z
             if clip:
                 pred = pred.clamp(-bound, bound)
@@ -567,6 +675,14 @@ class BatchedTrainer:
             if clip:
                 pred = pred.clamp(-bound, bound)
             train_mse = float(((pred - p.y_raw) ** 2).mean())
+            if low is None:
+                val = float(best_val[local])
+            else:  # the restored float32 network's own validation error, like train_mse
+                zv = _forward([w[None] for w in Wb], [b[None, None] for b in bb], p.Xv[None])[0]
+                pv = p.y_mean + p.y_scale * zv
+                if clip:
+                    pv = pv.clamp(-bound, bound)
+                val = float(((pv - p.yv) ** 2).mean())
             state = {
                 "spec": spec,
                 "weights": [w.numpy() for w in Wb],
@@ -579,7 +695,7 @@ class BatchedTrainer:
             bst = int(best_step[local])
             results[r] = ReplicaResult(
                 train_mse=train_mse,
-                val_mse=float(best_val[local]),
+                val_mse=val,
                 steps=int(step),
                 best_step=bst,
                 stop_reason=reason,
@@ -590,6 +706,7 @@ class BatchedTrainer:
                 n_val=p.n_val,
                 seed=p.seed,
                 nonzero_weights=int(sum(int(torch.count_nonzero(w)) for w in Wb)),
+                precision=precision,
                 state=state,
             )
 
@@ -624,6 +741,7 @@ class BatchedTrainer:
                     params = [p[ki].contiguous() for p in params]
                     m1 = [m[ki].contiguous() for m in m1]
                     m2 = [m[ki].contiguous() for m in m2]
+                    slabs = _replica_slabs(params, m1, m2)
                     best = [bp[ki].contiguous() for bp in best]
                     best_val, best_step = best_val[ki], best_step[ki]
                     Xv, Yv, wv, ym, ysc = Xv[ki], Yv[ki], wv[ki], ym[ki], ysc[ki]
@@ -657,12 +775,15 @@ class BatchedTrainer:
                 xb = flat_X.index_select(0, flat).view(Ra, B, -1)
                 yb = flat_Y.index_select(0, flat).view(Ra, B)
                 wb_rows = None
-            grads = _loss_grads(params[:L], params[L:], xb, yb, w_mb if wb_rows is None else wb_rows)
+            grads = _loss_grads(params[:L], params[L:], xb, yb, w_mb if wb_rows is None else wb_rows, low)
             step += 1
             adam_step.fill_(step)
-            # One fused kernel for the whole Adam update of every tensor [1]_ (same formula as
-            # torch.optim.Adam: m/(1-b1^t) / (sqrt(v/(1-b2^t)) + eps)).
-            torch._fused_adam_(params, grads, m1, m2, [], [adam_step] * len(params),
+            # One fused kernel call for the whole Adam update [1]_ (same formula as torch.optim.Adam:
+            # m/(1-b1^t) / (sqrt(v/(1-b2^t)) + eps)), given each replica's slab of each tensor as its own
+            # tensor: the kernel's vector loop then starts at every replica's first entry, so a
+            # replica's arithmetic does not depend on which other replicas share the stack.
+            g_slabs = [gs for g in grads for gs in g.unbind(0)]
+            torch._fused_adam_(slabs[0], g_slabs, slabs[1], slabs[2], [], [adam_step] * len(g_slabs),
                                lr=lr_at_step(cfg, step - 1), beta1=b1, beta2=b2, weight_decay=0.0, eps=eps,
                                amsgrad=False, maximize=False)
             if cfg.project_weights:
@@ -704,153 +825,3 @@ class BatchedTrainer:
             masks.append(keep[:, start:start + size].reshape(W.shape).to(W.dtype))
             start += size
         return masks
-
-
-class NetworkRegressor(RegressorMixin, BaseEstimator):
-    """ReLU network regressor sized by the manifold rules and trained by :class:`BatchedTrainer`.
-
-    Parameters
-    ----------
-    d : float or None, default=None
-        Intrinsic dimension used for sizing; None uses the number of features (no manifold assumed).
-        Estimate it with :mod:`manireg.geometry`.
-    s : float, default=1.0
-        Assumed Hölder smoothness of the target.
-    sizing_constants : SizingConstants or None
-        Constants of :func:`~manireg.theory.size_network`.
-    width_multiplier : float, default=1.0
-        Extra factor on the width.
-    output_bound : float, "auto" or None, default="auto"
-        Output clipping bound; "auto" uses ``1.1 * max|y_train|``; None disables clipping.
-    learning_rate, schedule, batch_size, full_batch_threshold, max_steps, max_seconds, min_steps,
-    patience_steps, validation_fraction, project_weights, prune, n_threads
-        As in :class:`TrainConfig`.
-    random_state : int or None
-        Seed of the validation split, the initial weights and the minibatch stream.
-
-    Attributes
-    ----------
-    spec_ : ArchitectureSpec
-    model_ : ReLUNetwork
-        The trained network (restored best-validation weights).
-    result_ : ReplicaResult
-    n_features_in_ : int
-
-    References
-    ----------
-    .. [4] M. Chen, H. Jiang, W. Liao, T. Zhao, Information and Inference 11 (2022).
-
-    Examples
-    --------
-    >>> import numpy as np
-    >>> rng = np.random.default_rng(0)
-    >>> X = rng.normal(size=(300, 4)); y = np.cos(X[:, 0])
-    >>> reg = NetworkRegressor(d=1, max_steps=200, random_state=0).fit(X, y)
-    >>> reg.predict(X[:3]).shape
-    (3,)
-    """
-
-    def __init__(
-        self,
-        *,
-        d=None,
-        s=1.0,
-        sizing_constants=None,
-        width_multiplier=1.0,
-        output_bound="auto",
-        learning_rate=3e-3,
-        schedule="cosine",
-        batch_size=128,
-        full_batch_threshold=256,
-        max_steps=500,
-        max_seconds=600.0,
-        min_steps=200,
-        patience_steps=150,
-        validation_fraction=0.2,
-        project_weights=False,
-        prune=False,
-        n_threads=None,
-        random_state=None,
-    ):
-        self.d = d
-        self.s = s
-        self.sizing_constants = sizing_constants
-        self.width_multiplier = width_multiplier
-        self.output_bound = output_bound
-        self.learning_rate = learning_rate
-        self.schedule = schedule
-        self.batch_size = batch_size
-        self.full_batch_threshold = full_batch_threshold
-        self.max_steps = max_steps
-        self.max_seconds = max_seconds
-        self.min_steps = min_steps
-        self.patience_steps = patience_steps
-        self.validation_fraction = validation_fraction
-        self.project_weights = project_weights
-        self.prune = prune
-        self.n_threads = n_threads
-        self.random_state = random_state
-
-    def _config(self) -> TrainConfig:
-        return TrainConfig(
-            learning_rate=self.learning_rate,
-            schedule=self.schedule,
-            batch_size=self.batch_size,
-            full_batch_threshold=self.full_batch_threshold,
-            max_steps=self.max_steps,
-            max_seconds=self.max_seconds,
-            min_steps=self.min_steps,
-            patience_steps=self.patience_steps,
-            validation_fraction=self.validation_fraction,
-            project_weights=self.project_weights,
-            prune=self.prune,
-            n_threads=self.n_threads,
-        )
-
-    def fit(self, X, y):
-        """Size the network for ``len(X)``, train it with validation early stopping, return ``self``."""
-        owner = "NetworkRegressor"
-        X = check_points(X, min_samples=3, owner=owner)
-        y = check_target(y, len(X), owner=owner)
-        config = self._config()
-        D = X.shape[1]
-        d = D if self.d is None else self.d
-        if self.output_bound == "auto":
-            bound = 1.1 * float(np.abs(y).max()) if np.abs(y).max() > 0 else 1.0
-        elif self.output_bound is None:
-            bound = math.inf
-        else:
-            bound = check_float(self.output_bound, "output_bound", owner=owner, low=0.0, low_open=True)
-        if self.sizing_constants is not None and not isinstance(self.sizing_constants, SizingConstants):
-            raise ValueError(
-                f"the 'sizing_constants' parameter of {owner} must be a SizingConstants or None; "
-                f"got {type(self.sizing_constants).__name__}."
-            )
-        rng = make_rng(self.random_state)
-        n_val = max(1, int(round(config.validation_fraction * len(X))))
-        if len(X) - n_val < 2:
-            raise DataValidationError(f"{owner}: X has {len(X)} rows; too few to hold out a validation set.")
-        perm = rng.permutation(len(X))
-        tr, va = perm[n_val:], perm[:n_val]
-        self.spec_ = size_network(
-            len(tr), d, self.s, D, constants=self.sizing_constants,
-            width_multiplier=self.width_multiplier, output_bound=bound,
-        )
-        seed = int(rng.integers(0, 2**31 - 1))
-        trainer = BatchedTrainer(self.spec_, config)
-        (self.result_,) = trainer.fit([ReplicaTask(X[tr], y[tr], X[va], y[va], seed=seed)])
-        self.model_ = self.result_.to_module()
-        self.n_features_in_ = D
-        return self
-
-    def predict(self, X):
-        """Predictions of the trained network, shape (m,)."""
-        check_is_fitted(self, "model_")
-        X = check_points(X, min_samples=1, owner="NetworkRegressor.predict")
-        if X.shape[1] != self.n_features_in_:
-            raise DataValidationError(
-                f"NetworkRegressor.predict: X has {X.shape[1]} features, but the model was fitted with "
-                f"{self.n_features_in_}."
-            )
-        with torch_threads(self.n_threads), torch.no_grad():
-            return self.model_(torch.from_numpy(X.astype(np.float32))).numpy().astype(np.float64)

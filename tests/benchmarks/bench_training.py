@@ -4,6 +4,9 @@ Run as a script (pytest does not collect it):
 
     python tests/benchmarks/bench_training.py            # n = 256 .. 8192, 5 repeats
     python tests/benchmarks/bench_training.py --quick    # n = 256 .. 2048, 3 repeats
+    python tests/benchmarks/bench_training.py --precision bfloat16   # the batched side in mixed precision
+    python tests/benchmarks/bench_training.py --crossover            # float32 vs bfloat16 step times
+    python tests/benchmarks/bench_training.py --floor                # how low each arithmetic gets
 
 Data: a 2-sphere in R^3 placed in R^64 by a random rotation, target sin(2 x1) + x2 x3 + noise (sd 0.1),
 test MSE against the noise-free target on 2000 points. All three learners get the same hidden sizes
@@ -11,6 +14,15 @@ test MSE against the noise-free target on 2000 points. All three learners get th
 batched trainer and the one-at-a-time PyTorch loop run the default ``TrainConfig`` and the same torch
 thread policy (``manireg.nets.training.auto_threads``: one thread for a step under 2e8 flops, else
 torch's setting).
+
+The comparison runs the batched trainer in float32 by default (``--precision``), so the ratio to the
+one-at-a-time loop measures batching alone. ``--crossover`` instead times one optimiser step (forward,
+backward, fused Adam; 5 replicas, one thread) in float32 and in bfloat16 mixed precision for the nets of
+the standard study (d = 3, D = 64, n = 256 .. 8192) and for narrower ones, with each step's flop count:
+the data behind ``manireg.nets.training.BF16_MIN_FLOPS``. ``--floor`` trains 3 replicas of a wide net
+(n = 4096, width multiplier 4) on a noise-free target on a circle in R^10 (d = 1, an easy target) for 500
+and 2000 steps in each arithmetic and prints the test MSE relative to the target's variance: how far down
+each can go.
 
 FLOP count of the batched trainer: ``6 * n_parameters * rows`` per replica and optimiser step (2 flops
 per weight and row forward, 4 backward), summed over replicas and steps; validation passes are not
@@ -40,15 +52,13 @@ def make_data(n, seed, D=64, noise=0.1):
 
 def torch_one_at_a_time(spec, cfg, Xtr, ytr, Xva, yva, seed):
     """A plain PyTorch loop for one network: same init, schedule, batch size, early stopping."""
-    import torch
-
-    from manireg.nets import build_network
-    from manireg.nets.training import _torch_threads, auto_threads, lr_at_step
+    from manireg._threads import torch_threads
+    from manireg.nets.training import auto_threads
 
     n = len(Xtr)
     rows = n if n <= cfg.full_batch_threshold else min(cfg.batch_size, n)
     threads = cfg.n_threads if cfg.n_threads is not None else auto_threads(spec, rows)
-    with _torch_threads(threads):  # the batched trainer's thread policy, for a fair comparison
+    with torch_threads(threads):  # the batched trainer's thread policy, for a fair comparison
         return _torch_loop(spec, cfg, Xtr, ytr, Xva, yva, seed)
 
 
@@ -111,11 +121,108 @@ def matmul_gflops(size=2048, repeats=5):
     return 2 * size**3 * repeats / (time.perf_counter() - t) / 1e9
 
 
+def step_seconds(spec, replicas, rows, low, steps=60, rounds=3):
+    """Best-of-``rounds`` seconds of one trainer step (hand-written backward + fused Adam)."""
+    import torch
+
+    from manireg.nets.builders import init_parameters
+    from manireg.nets.training import _loss_grads
+
+    inits = [init_parameters(spec, seed=s) for s in range(replicas)]
+    L = len(inits[0])
+    Ws = [torch.stack([i[l][0] for i in inits]).contiguous() for l in range(L)]
+    bs = [torch.stack([i[l][1] for i in inits])[:, None, :].contiguous() for l in range(L)]
+    params = Ws + bs
+    m1 = [torch.zeros_like(p) for p in params]
+    m2 = [torch.zeros_like(p) for p in params]
+    counter = torch.zeros(())
+    x, y = torch.randn(replicas, rows, spec.input_dim), torch.randn(replicas, rows)
+    best = math.inf
+    for _ in range(rounds):
+        t = time.perf_counter()
+        for k in range(steps):
+            grads = _loss_grads(params[:L], params[L:], x, y, 1.0 / rows, low)
+            counter.fill_(k + 1)
+            torch._fused_adam_(params, grads, m1, m2, [], [counter] * len(params), lr=1e-4, beta1=0.9,
+                               beta2=0.999, weight_decay=0.0, eps=1e-8, amsgrad=False, maximize=False)
+        best = min(best, (time.perf_counter() - t) / steps)
+    return best
+
+
+def crossover():
+    """Per-step time in float32 and in bfloat16 mixed precision, one thread, 5 replicas."""
+    import torch
+
+    from manireg.nets.training import BF16_MIN_FLOPS, native_bfloat16
+    from manireg.theory import size_network
+
+    torch.set_num_threads(1)
+    print(f"torch {torch.__version__}; native bfloat16: {native_bfloat16()}; BF16_MIN_FLOPS = {BF16_MIN_FLOPS:.0e} "
+          "(one replica's step)")
+    print(f"{'n':>6} {'width':>5} {'depth':>5} {'rows':>5} {'flops/replica':>13} | {'float32 ms':>10} "
+          f"{'bfloat16 ms':>11} {'ratio':>6}")
+    cases = [(n, 1.0) for n in (256, 512, 1024, 2048, 4096, 8192)] + [(256, 32 / 56), (256, 48 / 56)]
+    for n, wm in cases:
+        spec = size_network(n, 3, 1, input_dim=64, width_multiplier=wm)
+        n_fit = int(0.8 * n)
+        rows = n_fit if n_fit <= 256 else 128
+        a = step_seconds(spec, 5, rows, None)
+        b = step_seconds(spec, 5, rows, torch.bfloat16)
+        print(f"{n:>6} {spec.width:>5} {spec.depth:>5} {rows:>5} {6.0 * spec.n_parameters * rows:>13.2e} | "
+              f"{a * 1e3:>10.2f} {b * 1e3:>11.2f} {a / b:>6.2f}", flush=True)
+    return 0
+
+
+def circle_data(n, seed, D=10):
+    """Unit circle in R^10 through a fixed rotation, noise-free target sin(2t) + 0.5 cos(t)."""
+    Q, _ = np.linalg.qr(np.random.default_rng(1234).normal(size=(D, D)))
+    t = np.random.default_rng(seed).uniform(0, 2 * np.pi, n)
+    P = np.zeros((n, D))
+    P[:, 0], P[:, 1] = np.cos(t), np.sin(t)
+    return P @ Q.T, np.sin(2 * t) + 0.5 * np.cos(t)
+
+
+def floor():
+    """Noise-free target on a circle (d = 1), a wide net, long training: the lowest test MSE of each
+    arithmetic."""
+    from manireg.nets import BatchedTrainer, ReplicaTask, TrainConfig
+    from manireg.theory import size_network
+
+    n, n_val = 4096, 1024
+    tasks = []
+    for r in range(3):
+        X, f = circle_data(n + n_val, seed=r)
+        tasks.append(ReplicaTask(X[:n], f[:n], X[n:], f[n:], seed=r))
+    Xte, fte = circle_data(2000, seed=99)
+    spec = size_network(n, 1, 1, input_dim=Xte.shape[1], width_multiplier=4)
+    print(f"circle in R^10, n {n}, width {spec.width}, depth {spec.depth}, target variance {fte.var():.4f}; "
+          "test MSE / target variance per replica")
+    for steps in (500, 2000):
+        for precision in ("float32", "bfloat16"):
+            cfg = TrainConfig(precision=precision, max_steps=steps, patience_steps=10**6)
+            trainer = BatchedTrainer(spec, cfg)
+            t = time.perf_counter()
+            trainer.fit(tasks)
+            secs = time.perf_counter() - t
+            rel = np.mean((trainer.predict(Xte) - fte) ** 2, axis=1) / fte.var()
+            print(f"{steps:>5} steps {precision:>8}: {secs:6.1f} s  " + "  ".join(f"{v:.2e}" for v in rel),
+                  flush=True)
+    return 0
+
+
 def main(argv=None):
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="n up to 2048, 3 repeats")
     parser.add_argument("--repeats", type=int, default=None)
+    parser.add_argument("--precision", default="float32", choices=("float32", "bfloat16", "auto"),
+                        help="arithmetic of the batched trainer (the other two are float32)")
+    parser.add_argument("--crossover", action="store_true", help="only time float32 vs bfloat16 steps")
+    parser.add_argument("--floor", action="store_true", help="only the noise-free floor of each arithmetic")
     args = parser.parse_args(argv)
+    if args.crossover:
+        return crossover()
+    if args.floor:
+        return floor()
 
     import torch
     from sklearn.neural_network import MLPRegressor
@@ -127,7 +234,7 @@ def main(argv=None):
 
     ns = [256, 512, 1024, 2048] if args.quick else [256, 512, 1024, 2048, 4096, 8192]
     repeats = args.repeats or (3 if args.quick else 5)
-    cfg = TrainConfig()
+    cfg = TrainConfig(precision=args.precision)
     Xte, _, fte = make_data(2000, seed=10**6)
     peak = matmul_gflops()
     print(f"torch {torch.__version__}, threads {torch.get_num_threads()}, repeats {repeats}, config {cfg}")

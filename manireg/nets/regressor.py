@@ -1,0 +1,175 @@
+"""A scikit-learn style regressor: one ReLU network sized by the manifold rules, trained by the batched
+trainer.
+
+Kept apart from :mod:`manireg.nets.training` so that the trainer (what study workers import) does not pull
+in scikit-learn.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import torch
+from sklearn.base import BaseEstimator, RegressorMixin
+from sklearn.utils.validation import check_is_fitted
+
+from manireg._threads import torch_threads
+from manireg._validation import DataValidationError, check_float, check_points, check_target, make_rng
+from manireg.nets.training import BatchedTrainer, ReplicaTask, TrainConfig
+from manireg.theory.sizing import SizingConstants, size_network
+
+__all__ = ["NetworkRegressor"]
+
+
+class NetworkRegressor(RegressorMixin, BaseEstimator):
+    """ReLU network regressor sized by the manifold rules and trained by :class:`BatchedTrainer`.
+
+    Parameters
+    ----------
+    d : float or None, default=None
+        Intrinsic dimension used for sizing; None uses the number of features (no manifold assumed).
+        Estimate it with :mod:`manireg.geometry`.
+    s : float, default=1.0
+        Assumed Hölder smoothness of the target.
+    sizing_constants : SizingConstants or None
+        Constants of :func:`~manireg.theory.size_network`.
+    width_multiplier : float, default=1.0
+        Extra factor on the width.
+    output_bound : float, "auto" or None, default="auto"
+        Output clipping bound; "auto" uses ``1.1 * max|y_train|``; None disables clipping.
+    learning_rate, schedule, batch_size, full_batch_threshold, max_steps, max_seconds, min_steps,
+    patience_steps, validation_fraction, project_weights, prune, precision, n_threads
+        As in :class:`~manireg.nets.training.TrainConfig`.
+    random_state : int or None
+        Seed of the validation split, the initial weights and the minibatch stream.
+
+    Attributes
+    ----------
+    spec_ : ArchitectureSpec
+    model_ : ReLUNetwork
+        The trained network (restored best-validation weights).
+    result_ : ReplicaResult
+    n_features_in_ : int
+
+    References
+    ----------
+    .. [4] M. Chen, H. Jiang, W. Liao, T. Zhao, Information and Inference 11 (2022).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.normal(size=(300, 4)); y = np.cos(X[:, 0])
+    >>> reg = NetworkRegressor(d=1, max_steps=200, random_state=0).fit(X, y)
+    >>> reg.predict(X[:3]).shape
+    (3,)
+    """
+
+    def __init__(
+        self,
+        *,
+        d=None,
+        s=1.0,
+        sizing_constants=None,
+        width_multiplier=1.0,
+        output_bound="auto",
+        learning_rate=3e-3,
+        schedule="cosine",
+        batch_size=128,
+        full_batch_threshold=256,
+        max_steps=500,
+        max_seconds=600.0,
+        min_steps=200,
+        patience_steps=150,
+        validation_fraction=0.2,
+        project_weights=False,
+        prune=False,
+        precision="auto",
+        n_threads=None,
+        random_state=None,
+    ):
+        self.d = d
+        self.s = s
+        self.sizing_constants = sizing_constants
+        self.width_multiplier = width_multiplier
+        self.output_bound = output_bound
+        self.learning_rate = learning_rate
+        self.schedule = schedule
+        self.batch_size = batch_size
+        self.full_batch_threshold = full_batch_threshold
+        self.max_steps = max_steps
+        self.max_seconds = max_seconds
+        self.min_steps = min_steps
+        self.patience_steps = patience_steps
+        self.validation_fraction = validation_fraction
+        self.project_weights = project_weights
+        self.prune = prune
+        self.precision = precision
+        self.n_threads = n_threads
+        self.random_state = random_state
+
+    def _config(self) -> TrainConfig:
+        return TrainConfig(
+            learning_rate=self.learning_rate,
+            schedule=self.schedule,
+            batch_size=self.batch_size,
+            full_batch_threshold=self.full_batch_threshold,
+            max_steps=self.max_steps,
+            max_seconds=self.max_seconds,
+            min_steps=self.min_steps,
+            patience_steps=self.patience_steps,
+            validation_fraction=self.validation_fraction,
+            project_weights=self.project_weights,
+            prune=self.prune,
+            precision=self.precision,
+            n_threads=self.n_threads,
+        )
+
+    def fit(self, X, y):
+        """Size the network for ``len(X)``, train it with validation early stopping, return ``self``."""
+        owner = "NetworkRegressor"
+        X = check_points(X, min_samples=3, owner=owner)
+        y = check_target(y, len(X), owner=owner)
+        config = self._config()
+        D = X.shape[1]
+        d = D if self.d is None else self.d
+        if self.output_bound == "auto":
+            bound = 1.1 * float(np.abs(y).max()) if np.abs(y).max() > 0 else 1.0
+        elif self.output_bound is None:
+            bound = math.inf
+        else:
+            bound = check_float(self.output_bound, "output_bound", owner=owner, low=0.0, low_open=True)
+        if self.sizing_constants is not None and not isinstance(self.sizing_constants, SizingConstants):
+            raise ValueError(
+                f"the 'sizing_constants' parameter of {owner} must be a SizingConstants or None; "
+                f"got {type(self.sizing_constants).__name__}."
+            )
+        rng = make_rng(self.random_state)
+        n_val = max(1, int(round(config.validation_fraction * len(X))))
+        if len(X) - n_val < 2:
+            raise DataValidationError(f"{owner}: X has {len(X)} rows; too few to hold out a validation set.")
+        perm = rng.permutation(len(X))
+        tr, va = perm[n_val:], perm[:n_val]
+        self.spec_ = size_network(
+            len(tr), d, self.s, D, constants=self.sizing_constants,
+            width_multiplier=self.width_multiplier, output_bound=bound,
+        )
+        seed = int(rng.integers(0, 2**31 - 1))
+        trainer = BatchedTrainer(self.spec_, config)
+        (self.result_,) = trainer.fit([ReplicaTask(X[tr], y[tr], X[va], y[va], seed=seed)])
+        self.model_ = self.result_.to_module()
+        self.n_features_in_ = D
+        return self
+
+    def predict(self, X):
+        """Predictions of the trained network, shape (m,)."""
+        check_is_fitted(self, "model_")
+        X = check_points(X, min_samples=1, owner="NetworkRegressor.predict")
+        if X.shape[1] != self.n_features_in_:
+            raise DataValidationError(
+                f"NetworkRegressor.predict: X has {X.shape[1]} features, but the model was fitted with "
+                f"{self.n_features_in_}."
+            )
+        with torch_threads(self.n_threads), torch.no_grad():
+            return self.model_(torch.from_numpy(X.astype(np.float32))).numpy().astype(np.float64)
