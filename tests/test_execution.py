@@ -25,7 +25,9 @@ def _compare(a, b):
         assert a[c].astype(object).where(a[c].notna(), None).tolist() == \
             b[c].astype(object).where(b[c].notna(), None).tolist(), c
     for c in NUMBERS:
-        np.testing.assert_allclose(a[c].astype(float), b[c].astype(float), rtol=1e-6, atol=1e-9, err_msg=c)
+        # bit for bit: every seed comes from the cell, one torch thread everywhere, and a replica's
+        # arithmetic does not depend on its stack, so executors and unit splits change no number
+        np.testing.assert_array_equal(a[c].astype(float), b[c].astype(float), err_msg=c)
 
 
 @pytest.fixture(scope="module")
@@ -39,6 +41,38 @@ def test_units_batch_net_repeats(tmp_path):
     net = [u for u in units if u[0].learner.kind == "net"]
     assert len(net) == 3 and all(len(u) == 2 and len({c.n for c in u}) == 1 for u in net)
     assert all(len(u) == 1 for u in units if u[0].learner.kind == "knn")
+
+
+def test_units_are_split_to_balance_workers(tmp_path):
+    study = make_study(tmp_path / "s.sqlite")
+    cells, data = study.cells(), study.data
+    whole = make_units(cells)
+    assert make_units(cells, data, n_workers=1) == whole
+    for workers in (2, 3):
+        units = make_units(cells, data, n_workers=workers)
+        # the same cells, each once
+        assert sorted(c.key for u in units for c in u) == sorted(c.key for c in cells)
+        costs = [ex._unit_cost(u, data) for u in units]
+        share = sum(costs) / workers
+        # no unit of several cells is left above a worker's share
+        assert all(cost <= share or len(u) == 1 for u, cost in zip(units, costs))
+        # splitting only divides units of one (learner, n)
+        assert all(len({c.unit_key for c in u}) == 1 for u in units)
+    # here the two n=160 nets are over half the work: two workers get one each
+    split = [u for u in make_units(cells, data, n_workers=2) if u[0].learner.kind == "net" and u[0].n == 160]
+    assert [len(u) for u in split] == [1, 1]
+
+
+def test_split_units_give_the_same_rows(tmp_path):
+    # make_units may split a unit; the rows must not change by a single bit (see
+    # test_training.test_replica_numbers_do_not_depend_on_the_stack).
+    study = make_study(tmp_path / "s.sqlite", learners=("net",))
+    unit = [c for c in study.cells() if c.n == 160]
+    together = ex.run_unit(unit, study.data)
+    apart = ex.run_unit(unit[:1], study.data) + ex.run_unit(unit[1:], study.data)
+    for a, b in zip(together, apart):
+        for col in NUMBERS + SAME[:-2]:
+            assert a[col] == b[col], col
 
 
 def test_one_fit_call_per_learner_and_size(tmp_path, monkeypatch):

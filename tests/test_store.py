@@ -8,6 +8,7 @@ import time
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
 import pytest
 
 from manireg.curves.store import ResultStore, StoreError
@@ -47,6 +48,27 @@ def test_put_is_idempotent_and_failed_rows_are_kept_until_retried(tmp_path):
     con = __import__("sqlite3").connect(store.path)
     assert con.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
     con.close()
+
+
+def test_store_from_an_older_version_gains_new_columns_and_keeps_its_rows(tmp_path):
+    import sqlite3
+
+    path = tmp_path / "old.sqlite"
+    old_columns = [c for c in ROW_COLUMNS if c != "precision"]  # the schema before rows recorded precision
+    con = sqlite3.connect(path)
+    from manireg.curves.store import _TYPES
+
+    con.execute(f"CREATE TABLE cells ({', '.join(f'{c!r} {_TYPES[c]}' for c in old_columns)})")
+    con.execute("INSERT INTO cells (key, study, learner, n, repeat, test_mse, status) "
+                "VALUES ('old', 's', 'knn', 10, 0, 0.5, 'ok')")
+    con.commit()
+    con.close()
+    store = ResultStore(path)
+    assert store.put(_row("new", test=0.25) | {"precision": "float32"})
+    df = store.rows().set_index("key")
+    assert df.loc["old", "test_mse"] == 0.5 and df.loc["new", "test_mse"] == 0.25
+    assert df.loc["new", "precision"] == "float32" and pd.isna(df.loc["old", "precision"])
+    assert store.finished_keys() == {"old", "new"}
 
 
 def test_unwritable_path_is_a_clear_error(tmp_path):

@@ -2,7 +2,9 @@
 
 The pending cells (those not yet in the store) are grouped into work units: all repeats of one net learner
 at one n form one unit (they share an architecture and go to one ``BatchedTrainer.fit`` call); every other
-cell is a unit of its own. A unit is a plain function call, :func:`run_unit`, that returns one row per
+cell is a unit of its own. The parallel executors also split a unit that would cost more than one
+worker's share of the whole (estimated flops, :meth:`Learner.cell_cost`) into halves, and submit the
+costliest units first; a replica's numbers do not depend on its stack, so this changes no row. A unit is a plain function call, :func:`run_unit`, that returns one row per
 cell; a unit that raises gives ``status="failed"`` rows carrying the error message. The parent process
 writes each unit's rows as they arrive, one transaction per cell, so a killed run loses only the units in
 flight.
@@ -18,9 +20,11 @@ Executors:
     ``scheduler="tcp://host:8786"`` or a ``Client``; with neither, a local cluster of ``n_jobs`` single-thread
     workers is started and closed afterwards. This is the way past one machine.
 
-Rows do not depend on the executor: every random step is seeded from the cell, and torch runs with
-``torch_threads`` intra-op threads inside every unit (1 by default), so float reductions happen in the same
-order everywhere. Only ``seconds`` and ``created_at`` differ between runs.
+Rows do not depend on the executor or on how units were split: every random step is seeded from the
+cell, torch runs with ``torch_threads`` intra-op threads inside every unit (1 by default), and the trainer
+keeps each replica's arithmetic independent of the others in its stack, so float reductions happen in the
+same order everywhere (tested bit for bit). Only ``seconds`` and ``created_at`` differ between runs on one
+machine; a different CPU may round differently.
 
 References
 ----------
@@ -49,17 +53,27 @@ class RunSummary(dict):
     whether a ``stop`` request ended it early (``stopped``)."""
 
 
-def make_units(cells) -> list:
+def make_units(cells, data=None, n_workers=1) -> list:
     """Group cells into work units: a batchable learner's cells of one n together, others alone.
+
+    With ``n_workers > 1`` (and ``data``) the units are also balanced: while the costliest unit (by the
+    learners' :meth:`~manireg.curves.learners.Learner.cell_cost`) costs more than ``1 / n_workers`` of
+    the whole and holds more than one cell, it is split into two halves. Otherwise that one unit would
+    be the critical path: in the standard benchmark study the five replicas at the largest n are over
+    half of all the work. A replica's numbers do not depend on which replicas share its stack (see
+    :class:`manireg.nets.training.BatchedTrainer`), so splitting changes timing, never rows.
 
     Parameters
     ----------
     cells : list of Cell
+    data : StudyData, optional
+        Needed for the cost estimate when ``n_workers > 1``.
+    n_workers : int, default=1
 
     Returns
     -------
     list of list of Cell
-        In the order of first appearance.
+        In the order of first appearance (split halves stay adjacent).
     """
     units, index = [], {}
     for c in cells:
@@ -71,7 +85,18 @@ def make_units(cells) -> list:
             units[index[k]].append(c)
         else:
             units.append([c])
-    return units
+    if n_workers <= 1 or data is None or len(units) == 0:
+        return units
+    costs = [_unit_cost(u, data) for u in units]
+    share = sum(costs) / n_workers
+    while True:
+        i = max(range(len(units)), key=costs.__getitem__)
+        if costs[i] <= share or len(units[i]) < 2:
+            return units
+        unit, half = units[i], (len(units[i]) + 1) // 2
+        per_cell = costs[i] / len(unit)
+        units[i:i + 1] = [unit[:half], unit[half:]]
+        costs[i:i + 1] = [per_cell * half, per_cell * (len(unit) - half)]
 
 
 def _base_row(cell):
@@ -173,11 +198,6 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
     summary = RunSummary(total=total, skipped=total - len(pending), ran=0, failed=0, executor=executor)
     if not pending:
         return summary
-    units = make_units(pending)
-    if executor != "inprocess":
-        # Largest units first (longest-processing-time order): the biggest net unit, which sets the
-        # critical path, starts at once while the other workers take the small ones.
-        units.sort(key=_unit_cost, reverse=True)
     bar = _progress(total, total - len(pending), progress, getattr(data, "label", "study"))
 
     def stopped():
@@ -197,14 +217,15 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
     summary["stopped"] = False
     try:
         if executor == "inprocess":
-            for unit in units:
+            for unit in make_units(pending):
                 if stopped():
                     break
                 record(run_unit(unit, data, torch_threads))
         elif executor == "processes":
-            _run_joblib(units, data, n_jobs or os.cpu_count() or 1, torch_threads, record)
+            workers = n_jobs or os.cpu_count() or 1
+            _run_joblib(_parallel_units(pending, data, workers), data, workers, torch_threads, record)
         else:
-            _run_dask(units, data, scheduler, n_jobs or 2, torch_threads, record)
+            _run_dask(pending, data, scheduler, n_jobs or 2, torch_threads, record)
     finally:
         if bar is not None:
             bar.close()
@@ -212,9 +233,21 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
     return summary
 
 
-def _unit_cost(unit):
-    """Rough relative cost of a unit for ordering: cells x n (a net's step cost grows with n)."""
-    return len(unit) * max(int(c.n) for c in unit)
+def _unit_cost(unit, data):
+    """Estimated flops of a unit: its learner's cost of one cell times the cells."""
+    return len(unit) * make_learner(unit[0].learner).cell_cost(int(unit[0].n), data)
+
+
+def _parallel_units(cells, data, workers):
+    """Units balanced over ``workers`` (:func:`make_units`), costliest first.
+
+    Longest-processing-time order: the biggest net unit, which sets the critical path, starts at once
+    while the other workers take the small ones.
+    """
+    units = make_units(cells, data, workers)
+    costs = [_unit_cost(u, data) for u in units]
+    order = sorted(range(len(units)), key=lambda i: -costs[i])
+    return [units[i] for i in order]
 
 
 def _run_joblib(units, data, n_jobs, torch_threads, record):
@@ -232,7 +265,7 @@ def _run_joblib(units, data, n_jobs, torch_threads, record):
             close()  # on KeyboardInterrupt: stop dispatching, abort what is queued
 
 
-def _run_dask(units, data, scheduler, n_workers, torch_threads, record):
+def _run_dask(cells, data, scheduler, n_workers, torch_threads, record):
     try:
         from distributed import Client, LocalCluster, as_completed
     except ImportError:  # pragma: no cover - optional dependency
@@ -255,6 +288,7 @@ def _run_dask(units, data, scheduler, n_workers, torch_threads, record):
         )
     futures = []
     try:
+        units = _parallel_units(cells, data, max(1, sum(client.nthreads().values())))
         data_future = client.scatter(data, broadcast=True)
         futures = [client.submit(run_unit, u, data_future, torch_threads, pure=False) for u in units]
         for fut in as_completed(futures):

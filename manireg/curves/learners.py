@@ -147,6 +147,12 @@ class Learner:
     def resolve(self, context) -> dict:  # pragma: no cover - abstract
         raise NotImplementedError
 
+    def cell_cost(self, n, data) -> float:
+        """Rough floating-point operations of one cell of size ``n``; only used to balance work units
+        over workers, so a factor of two does not matter. Default: a distance computation between the
+        ``n`` training and the ``n + n_test`` evaluation points."""
+        return 2.0 * data.D * n * (n + len(data.y_test))
+
     def run(self, cells, data) -> list:  # pragma: no cover - abstract
         raise NotImplementedError
 
@@ -215,6 +221,18 @@ class NetLearner(Learner):
                             width_multiplier=float(self.spec.params.get("width_multiplier", 1.0)),
                             output_bound=self._output_bound(data))
 
+    def cell_cost(self, n, data) -> float:
+        """Training steps (``6 * parameters * rows`` per step, ``max_steps`` steps), the validation passes
+        and the final evaluation of one replica, in flops."""
+        train, _ = self._configs()
+        arch = self.architecture(n, data)
+        n_val = int(round(data.val_fraction * n))
+        n_fit = n - n_val
+        rows = n_fit if n_fit <= train.full_batch_threshold else min(train.batch_size, n_fit)
+        evals = train.max_steps // train.eval_every + 1
+        P = arch.n_parameters
+        return 6.0 * P * rows * train.max_steps + 2.0 * P * (n_val * evals + n + len(data.y_test))
+
     def _output_bound(self, data):
         """The clipping bound: ``"auto"`` (default) is 1.1 x the largest |y| outside the test set (the theory's
         estimator clips its output at a bound on the target; without it a small-n net can extrapolate far
@@ -251,6 +269,7 @@ class NetLearner(Learner):
                 "stop_reason": str(r.stop_reason), "late_best": bool(r.late_best), "seconds": float(r.seconds),
                 "n_parameters": int(r.n_parameters), "width": int(arch.width), "depth": int(arch.depth),
                 "width_multiplier": float(self.spec.params.get("width_multiplier", 1.0)),
+                "precision": str(r.precision),
             })
         return out
 
@@ -261,7 +280,7 @@ def _baseline_row(pred_fit, yf, pred_val, yv, pred_test, data, seconds):
         "train_mse": _mse(pred_fit, yf), "val_mse": _mse(pred_val, yv) if len(yv) else None,
         "test_mse": test, "test_mse_clean": clean, "steps": None, "best_step": None,
         "stop_reason": None, "late_best": None, "seconds": seconds, "n_parameters": None,
-        "width": None, "depth": None, "width_multiplier": None,
+        "width": None, "depth": None, "width_multiplier": None, "precision": None,
     }
 
 
@@ -282,6 +301,10 @@ class KNNLearner(Learner):
     def resolve(self, context) -> dict:
         k = self.spec.params.get("k")
         return {"c": float(self.spec.params.get("c", baselines.DEFAULT_KNN_C)), "k": None if k is None else int(k)}
+
+    def cell_cost(self, n, data) -> float:
+        """Brute-force distances from the ``n`` fit points to the ``n + n_test`` query points."""
+        return 2.0 * data.D * n * (n + len(data.y_test))
 
     def k_for(self, n_fit, data):
         k = self.spec.params.get("k")
@@ -315,6 +338,11 @@ class KernelRidgeLearner(Learner):
             "c_ridge": float(p.get("c_ridge", baselines.DEFAULT_RIDGE_C)),
             "max_exact": int(p.get("max_exact", baselines.DEFAULT_MAX_EXACT)),
         }
+
+    def cell_cost(self, n, data) -> float:
+        """Kernel matrix and its factorisation (exact), or the Nyström factor with ``max_exact`` centres."""
+        m = min(n, int(self.resolve(None)["max_exact"]))
+        return 2.0 * data.D * m * (n + len(data.y_test)) + n * m * m + m ** 3 / 3.0
 
     def run(self, cells, data) -> list:
         r = self.resolve(None)

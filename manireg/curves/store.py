@@ -36,7 +36,7 @@ _TYPES = {
     "repeat": "INTEGER NOT NULL", "seed": "INTEGER", "train_mse": "REAL", "val_mse": "REAL", "test_mse": "REAL",
     "test_mse_clean": "REAL", "steps": "INTEGER", "best_step": "INTEGER", "stop_reason": "TEXT",
     "late_best": "INTEGER", "seconds": "REAL", "n_parameters": "INTEGER", "width": "INTEGER", "depth": "INTEGER",
-    "width_multiplier": "REAL", "status": "TEXT NOT NULL", "error": "TEXT", "created_at": "TEXT",
+    "width_multiplier": "REAL", "precision": "TEXT", "status": "TEXT NOT NULL", "error": "TEXT", "created_at": "TEXT",
     "config_json": "TEXT",
 }
 _STUDY_COLUMNS = ("study", "spec_json", "fingerprint", "d", "s", "ambient_dim", "meta_json", "created_at", "updated_at")
@@ -97,6 +97,12 @@ class ResultStore:
         with self._connect() as con:
             cols = ", ".join(f'"{c}" {_TYPES[c]}' for c in ROW_COLUMNS)
             con.execute(f"CREATE TABLE IF NOT EXISTS cells ({cols})")
+            # A store written by an older version lacks the newer columns: add them (empty for old rows)
+            # instead of failing, so nothing stored is lost.
+            have = {r[1] for r in con.execute("PRAGMA table_info(cells)")}
+            for c in ROW_COLUMNS:
+                if c not in have:
+                    con.execute(f'ALTER TABLE cells ADD COLUMN "{c}" {_TYPES[c].replace(" NOT NULL", "")}')
             con.execute("CREATE INDEX IF NOT EXISTS cells_study ON cells(study)")
             con.execute(
                 "CREATE TABLE IF NOT EXISTS studies (study TEXT PRIMARY KEY, spec_json TEXT, fingerprint TEXT, "

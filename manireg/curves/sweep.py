@@ -49,7 +49,7 @@ MIN_SIZE = 4
 ROW_COLUMNS = (
     "key", "study", "learner", "n", "repeat", "seed", "train_mse", "val_mse", "test_mse", "test_mse_clean",
     "steps", "best_step", "stop_reason", "late_best", "seconds", "n_parameters", "width", "depth",
-    "width_multiplier", "status", "error", "created_at", "config_json",
+    "width_multiplier", "precision", "status", "error", "created_at", "config_json",
 )
 
 _GENERATORS = ("sphere", "graph_manifold", "torus", "swiss_roll", "helix", "rendered_objects")

@@ -17,6 +17,11 @@ Run::
 
     python tests/benchmarks/bench_study.py            # the full grid above
     python tests/benchmarks/bench_study.py --quick    # sizes 256..2048 (4 sizes), 3 repeats
+    python tests/benchmarks/bench_study.py --precision float32 --no-reference   # manireg side only, float32
+
+``--precision`` sets the net learner's ``TrainConfig.precision`` (default ``auto``: bfloat16 mixed
+precision for the larger nets on a CPU with native bfloat16, see docs/theory.md); the table then also
+shows which arithmetic each n used.
 """
 
 from __future__ import annotations
@@ -35,12 +40,15 @@ def main(argv=None):
     p.add_argument("--executor", default="processes", choices=("inprocess", "processes", "dask"))
     p.add_argument("--n-jobs", type=int, default=2)
     p.add_argument("--torch-threads", type=int, default=1)
+    p.add_argument("--precision", default="auto", choices=("auto", "float32", "bfloat16"))
+    p.add_argument("--no-reference", action="store_true", help="skip the scikit-learn loop")
     args = p.parse_args(argv)
 
     from sklearn.neural_network import MLPRegressor
     from sklearn.pipeline import make_pipeline
     from sklearn.preprocessing import StandardScaler
 
+    from manireg.curves.learners import LearnerSpec
     from manireg.curves.study import Study
     from manireg.data.manifolds import graph_manifold
     from manireg.data.targets import make_regression
@@ -50,8 +58,9 @@ def main(argv=None):
     test_size = 2048
     sample = make_regression(graph_manifold(sizes[-1] + test_size, 3, 64, seed=0), 1.0, noise_std=0.1, seed=1)
     store = os.path.join(tempfile.mkdtemp(prefix="bench-study-"), "study.sqlite")
+    net = LearnerSpec("net", params={} if args.precision == "auto" else {"precision": args.precision})
     study = Study.from_regression_sample(sample, sizes=sizes, repeats=repeats, test_size=test_size, seed=0,
-                                         label="bench", store=store)
+                                         label="bench", store=store, learners=[net])
     print(f"grid: sizes {sizes}, {repeats} repeats, D=64, d=3, {len(study.cells())} cells; "
           f"executor={args.executor}, n_jobs={args.n_jobs}, torch_threads={args.torch_threads}")
 
@@ -59,6 +68,21 @@ def main(argv=None):
     res = study.run(executor=args.executor, n_jobs=args.n_jobs, torch_threads=args.torch_threads, progress=True)
     t_ours = time.perf_counter() - t0
 
+    import pandas as pd
+
+    ours = res.rows.groupby("n")[["test_mse", "test_mse_clean"]].mean()
+    table = ours.add_suffix("_manireg")
+    table["precision"] = res.rows.groupby("n")["precision"].agg(lambda s: ",".join(sorted(set(s))))
+    table["train_s"] = res.rows.groupby("n")["seconds"].max()
+    table["stops_manireg"] = res.rows.groupby("n")["stop_reason"].agg(
+        lambda s: ",".join(sorted({str(v) for v in s if isinstance(v, str)})))
+    table["failed_manireg"] = res.rows.groupby("n")["status"].agg(lambda s: int((s != "ok").sum()))
+    if args.no_reference:
+        print(f"\nmanireg: {t_ours:.1f} s (no reference run)")
+        print(f"noise variance {sample.noise_variance:.4f}")
+        with pd.option_context("display.width", 160, "display.float_format", "{:.4f}".format):
+            print(table.to_string())
+        return 0
     data = study.data
     learner = study.data.learners[0]
     from manireg.curves.learners import make_learner
@@ -78,14 +102,8 @@ def main(argv=None):
                     "test_mse_clean": float(np.mean((pred - data.f_test) ** 2))})
     t_ref = time.perf_counter() - t0
 
-    import pandas as pd
-
-    ours = res.rows.groupby("n")[["test_mse", "test_mse_clean"]].mean()
     theirs = pd.DataFrame(ref).groupby("n")[["test_mse", "test_mse_clean"]].mean()
-    table = ours.add_suffix("_manireg").join(theirs.add_suffix("_sklearn"))
-    table["failed_manireg"] = res.rows.groupby("n")["status"].agg(lambda s: int((s != "ok").sum()))
-    table["stops_manireg"] = res.rows.groupby("n")["stop_reason"].agg(
-        lambda s: ",".join(sorted({str(v) for v in s if isinstance(v, str)})))
+    table = table.join(theirs.add_suffix("_sklearn"))
     print(f"\nmanireg: {t_ours:.1f} s   sklearn MLPRegressor one cell at a time: {t_ref:.1f} s   "
           f"ratio {t_ref / t_ours:.2f}x")
     print(f"noise variance {sample.noise_variance:.4f}")
