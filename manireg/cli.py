@@ -89,14 +89,15 @@ def _print_warnings(messages):
         print(f"note: {m}")
 
 
-def _parse_learners(names, width_multipliers):
+def _parse_learners(names, width_multipliers, precision="auto"):
     from .curves import LearnerSpec
 
     specs = []
+    extra = {} if precision == "auto" else {"precision": precision}
     for name in names:
         if name == "net":
             for m in width_multipliers or [1.0]:
-                specs.append(LearnerSpec("net", params={"width_multiplier": float(m)}))
+                specs.append(LearnerSpec("net", params={"width_multiplier": float(m), **extra}))
         else:
             specs.append(LearnerSpec(name))
     return specs
@@ -228,7 +229,7 @@ def cmd_study(args) -> int:
     d = args.dimension if args.dimension is not None else (None if geo is None else max(1.0, round(float(geo.dimension.consensus), 2)))
     store = args.store or os.path.join(out, "study.sqlite")
     study = Study(X=table.X, y=table.y, sizes=args.sizes, repeats=args.repeats,
-                  learners=_parse_learners(args.learners, args.width_multipliers), d=d, s=s, seed=args.seed,
+                  learners=_parse_learners(args.learners, args.width_multipliers, args.precision), d=d, s=s, seed=args.seed,
                   label=args.label, store=store)
     extra = {"source": args.data}
     if geo is not None:
@@ -244,7 +245,8 @@ def cmd_study(args) -> int:
                           data={"source": args.data, "target": args.target, "n_samples": table.n_samples, "ambient_dim": table.X.shape[1]},
                           geometry=geo, study=result, **parts,
                           settings={"seed": args.seed, "sizes": study.data.sizes, "repeats": args.repeats, "learners": args.learners,
-                                    "width_multipliers": args.width_multipliers, "smoothness": s_range or s, "dimension": result.d,
+                                    "width_multipliers": args.width_multipliers, "precision": args.precision,
+                                    "smoothness": s_range or s, "dimension": result.d,
                                     "dimension_source": result.d_source, "floor": args.floor, "store": study.store.path})
     print(f"\nreport: {paths['html']}\nsummary: {paths['summary']}")
     return 0
@@ -400,6 +402,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--repeats", type=int, default=5, help="repeats per size (default: %(default)s)")
     p.add_argument("--learners", nargs="+", default=["net", "knn"], help="net, knn, kernel_ridge (default: net knn)")
     p.add_argument("--width-multipliers", type=float, nargs="+", help="several nets with these width multipliers (a capacity sweep)")
+    p.add_argument("--precision", default="auto", choices=["auto", "float32", "bfloat16"],
+                   help="arithmetic of the nets (default: %(default)s, bfloat16 where the CPU has it and the net is large; "
+                        "float32 for noise-free data fitted very closely)")
     p.add_argument("--store", help="SQLite store (default: OUT/study.sqlite); re-running resumes")
     p.add_argument("--label", default="study", help="study name in the store (default: %(default)s)")
     g = p.add_mutually_exclusive_group()

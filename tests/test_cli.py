@@ -39,7 +39,8 @@ def sphere_csv(tmp_path_factory):
 def finished_study(sphere_csv, tmp_path_factory):
     out = tmp_path_factory.mktemp("study")
     r = _cli("study", str(sphere_csv), "--target", "y", "--sizes", "40", "80", "160", "320", "--repeats", "3",
-             "--learners", "knn", "net", "--no-embed", "--quiet", "--out", str(out), "--smoothness", "1")
+             "--learners", "knn", "net", "--no-embed", "--quiet", "--out", str(out), "--smoothness", "1",
+             "--precision", "float32")
     assert r.returncode == 0, r.stderr
     return out, r
 
@@ -58,6 +59,10 @@ def test_study_writes_report_consistent_with_core(finished_study):
     assert rep["exponent"] == pytest.approx(core.exponent, rel=1e-9)
     assert rep["verdict"] == core.verdict and rep["interval"] == pytest.approx(list(core.interval))
     assert len(summary["rows"]) == len(res.rows) == 2 * 4 * 3
+    # --precision reaches the nets (and is recorded per row); the baselines have none
+    assert set(res.rows.loc[res.rows.learner == "net", "precision"]) == {"float32"}
+    assert res.rows.loc[res.rows.learner == "knn", "precision"].isna().all()
+    assert summary["settings"]["precision"] == "float32"
     # every exponent shown with its interval and verdict in the printed summary
     assert re.search(r"knn: exponent [0-9.]+ \[95% interval [0-9.]+, [0-9.]+\] - verdict: ", r.stdout)
     html = (out / "report.html").read_text()
