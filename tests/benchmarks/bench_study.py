@@ -64,9 +64,15 @@ def main(argv=None):
     print(f"grid: sizes {sizes}, {repeats} repeats, D=64, d=3, {len(study.cells())} cells; "
           f"executor={args.executor}, n_jobs={args.n_jobs}, torch_threads={args.torch_threads}")
 
+    arrivals = []  # (seconds since start when a unit's rows arrived, that unit's longest training time)
     t0 = time.perf_counter()
-    res = study.run(executor=args.executor, n_jobs=args.n_jobs, torch_threads=args.torch_threads, progress=True)
+    res = study.run(executor=args.executor, n_jobs=args.n_jobs, torch_threads=args.torch_threads, progress=True,
+                    on_unit=lambda rows: arrivals.append((time.perf_counter() - t0,
+                                                          max(r["seconds"] or 0.0 for r in rows))))
     t_ours = time.perf_counter() - t0
+    # the first unit of each worker started after the worker's start-up (spawn, imports, data transfer)
+    print(f"\nworker start-up (first arrival minus its training time): "
+          f"{min(a - s for a, s in arrivals):.1f} s; units: {len(arrivals)}")
 
     import pandas as pd
 
