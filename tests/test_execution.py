@@ -63,6 +63,18 @@ def test_units_are_split_to_balance_workers(tmp_path):
     assert [len(u) for u in split] == [1, 1]
 
 
+def test_a_failing_cost_estimate_does_not_stop_the_plan(tmp_path, monkeypatch):
+    from manireg.curves.learners import KNNLearner
+
+    def broken(self, n, data):
+        raise RuntimeError("no estimate")
+
+    monkeypatch.setattr(KNNLearner, "cell_cost", broken)
+    study = make_study(tmp_path / "s.sqlite")
+    units = ex._parallel_units(study.cells(), study.data, 2)
+    assert sorted(c.key for u in units for c in u) == sorted(c.key for c in study.cells())
+
+
 def test_split_units_give_the_same_rows(tmp_path):
     # make_units may split a unit; the rows must not change by a single bit (see
     # test_training.test_replica_numbers_do_not_depend_on_the_stack).

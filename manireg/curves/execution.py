@@ -234,8 +234,20 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
 
 
 def _unit_cost(unit, data):
-    """Estimated flops of a unit: its learner's cost of one cell times the cells."""
-    return len(unit) * make_learner(unit[0].learner).cell_cost(int(unit[0].n), data)
+    """Estimated flops of a unit: its learner's cost of one cell times the cells.
+
+    Only a scheduling hint: if a learner's estimate fails (a custom learner's ``cell_cost`` may not
+    know this data), the generic distance-computation estimate of the base class is used instead, and
+    the error itself surfaces when the unit runs.
+    """
+    from manireg.curves.learners import Learner
+
+    learner = make_learner(unit[0].learner)
+    try:
+        cost = float(learner.cell_cost(int(unit[0].n), data))
+    except Exception:  # noqa: BLE001 - a failing estimate must not stop the run
+        cost = Learner.cell_cost(learner, int(unit[0].n), data)
+    return len(unit) * cost
 
 
 def _parallel_units(cells, data, workers):
