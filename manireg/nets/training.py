@@ -643,6 +643,7 @@ class BatchedTrainer:
                 g.manual_seed(_derived_seed(p.seed, 1))
                 gens.append(g)
             buffers = [torch.empty(0, dtype=torch.int64) for _ in reps]
+            idx_chunk = None  # drawn at step 0 (step % chunk == 0), before any use
             chunk = 64
             flat_X = X.reshape(R * n_max, -1)
             flat_Y = Y.reshape(R * n_max)
