@@ -308,6 +308,15 @@ def resolve_precision(config, spec, rows) -> str:
     return "bfloat16" if native_bfloat16() else "float32"
 
 
+def _stacked_init(spec, seeds):
+    """Initial weights (R, in, out) and biases (R, 1, out) of one replica per seed, layer by layer."""
+    inits = [init_parameters(spec, seed=s) for s in seeds]
+    L = len(inits[0])
+    Ws = [torch.stack([ini[l][0] for ini in inits]).contiguous() for l in range(L)]
+    bs = [torch.stack([ini[l][1] for ini in inits])[:, None, :].contiguous() for l in range(L)]
+    return Ws, bs
+
+
 def _derived_seed(seed: int, stream: int) -> int:
     return int(np.random.SeedSequence([int(seed), stream]).generate_state(1, dtype=np.uint64)[0] >> 1)
 
@@ -399,29 +408,20 @@ def _loss_grads(Ws, bs, x, y, w, low=None):
     returned gradient stay float32. ``None``: everything float32.
     """
     last = len(Ws) - 1
-    Wc = _cast_hidden(Ws, low)
-    bc = _cast_hidden(bs, low)
+    dt = _layer_dtypes(len(Ws), low)
+    Wc = [W.to(d) for W, d in zip(Ws, dt)]
+    bc = [b.to(d) for b, d in zip(bs, dt)]
     hs = [x]
     for i in range(last):
-        h = torch.baddbmm(bc[i], hs[-1], Wc[i]).clamp_min_(0.0)
-        hs.append(h.to(low) if (low is not None and i == 0 and last > 1) else h)
-    h_out = hs[-1] if low is None else hs[-1].float()
-    z = _output_layer(h_out, Ws[last], bs[last])
+        hs.append(torch.baddbmm(bc[i], hs[-1], Wc[i]).clamp_min_(0.0).to(dt[i + 1]))
+    z = _output_layer(hs[last], Ws[last], bs[last])
     g = z.sub_(y.unsqueeze(-1)).mul_(2.0 * w if isinstance(w, float) else 2.0 * w.unsqueeze(-1))
     gW, gb = [None] * len(Ws), [None] * len(Ws)
     for i in range(last, -1, -1):
-        h_in = h_out if i == last else hs[i]
-        gW[i] = torch.bmm(h_in.transpose(1, 2), g)
+        gW[i] = torch.bmm(hs[i].transpose(1, 2), g).float()
         gb[i] = g.sum(dim=1, keepdim=True, dtype=torch.float32)
-        if gW[i].dtype != torch.float32:
-            gW[i] = gW[i].float()
         if i > 0:
-            mask = h_out if i == last else hs[i]
-            g = torch.ops.aten.threshold_backward(torch.bmm(g, Wc[i].transpose(1, 2)), mask, 0.0)
-            if low is not None and i == last and last > 1:
-                g = g.to(low)
-            elif low is not None and i == 1:
-                g = g.float()
+            g = torch.ops.aten.threshold_backward(torch.bmm(g, Wc[i].transpose(1, 2)), hs[i], 0.0).to(dt[i - 1])
     return gW + gb
 
 
@@ -430,25 +430,21 @@ def _replica_slabs(*stacks):
     return [[v for t in stack for v in t.unbind(0)] for stack in stacks]
 
 
-def _cast_hidden(tensors, low):
-    """``tensors`` with the hidden-to-hidden entries (all but the first and the last) cast to ``low``."""
-    if low is None or len(tensors) <= 2:
-        return list(tensors)
-    return [tensors[0]] + [t.to(low) for t in tensors[1:-1]] + [tensors[-1]]
+def _layer_dtypes(n_layers, low):
+    """The dtype of each layer's input and weights: ``low`` for the hidden-to-hidden layers (all but the
+    first and the last), float32 for the rest; all float32 when ``low`` is None. A layer's output is cast
+    to the next layer's dtype (a no-op when they agree)."""
+    return [torch.float32 if (low is None or i == 0 or i == n_layers - 1) else low for i in range(n_layers)]
 
 
 def _forward(Ws, bs, x, low=None):
     """Stacked forward pass: x (R, B, D) -> (R, B) in standardised target units (``low`` as in
     :func:`_loss_grads`)."""
     last = len(Ws) - 1
-    Wc, bc = _cast_hidden(Ws, low), _cast_hidden(bs, low)
+    dt = _layer_dtypes(len(Ws), low)
     h = x
     for i in range(last):
-        h = torch.baddbmm(bc[i], h, Wc[i]).clamp_min_(0.0)
-        if low is not None and i == 0 and last > 1:
-            h = h.to(low)
-    if h.dtype != torch.float32:
-        h = h.float()
+        h = torch.baddbmm(bs[i].to(dt[i]), h, Ws[i].to(dt[i])).clamp_min_(0.0).to(dt[i + 1])
     return _output_layer(h, Ws[last], bs[last]).squeeze(-1)
 
 
@@ -544,10 +540,9 @@ class BatchedTrainer:
             for key in sorted(groups, key=str):
                 idx = groups[key]
                 reps = [prepared[i] for i in idx]
-                rows = sum(p.batch for p in reps)
                 threads = self.config.n_threads
                 if threads is None:
-                    threads = auto_threads(self.spec, rows)
+                    threads = auto_threads(self.spec, sum(p.batch for p in reps))
                 precision = resolve_precision(self.config, self.spec, reps[0].batch)
                 with torch_threads(threads):
                     for i, res in zip(idx, self._fit_group(reps, precision)):
@@ -613,10 +608,8 @@ class BatchedTrainer:
         bound = spec.output_bound
         clip = math.isfinite(bound)
         # ---- parameters: (R, in, out) weights, (R, 1, out) biases, one init generator per replica
-        inits = [init_parameters(spec, seed=_derived_seed(p.seed, 0)) for p in reps]
-        L = len(inits[0])
-        Ws = [torch.stack([ini[l][0] for ini in inits]).contiguous() for l in range(L)]
-        bs = [torch.stack([ini[l][1] for ini in inits])[:, None, :].contiguous() for l in range(L)]
+        Ws, bs = _stacked_init(spec, [_derived_seed(p.seed, 0) for p in reps])
+        L = len(Ws)
         params = Ws + bs
         m1 = [torch.zeros_like(p) for p in params]
         m2 = [torch.zeros_like(p) for p in params]
@@ -671,19 +664,18 @@ class BatchedTrainer:
             p = reps[r]
             Wb = [best[l][local].clone() for l in range(L)]
             bb = [best[L + l][local, 0].clone() for l in range(L)]
-            z = _forward([w[None] for w in Wb], [b[None, None] for b in bb], p.X[None])[0]
-            pred = p.y_mean + p.y_scale * z
-            if clip:
-                pred = pred.clamp(-bound, bound)
-            train_mse = float(((pred - p.y_raw) ** 2).mean())
-            if low is None:
-                val = float(best_val[local])
-            else:  # the restored float32 network's own validation error, like train_mse
-                zv = _forward([w[None] for w in Wb], [b[None, None] for b in bb], p.Xv[None])[0]
-                pv = p.y_mean + p.y_scale * zv
+            def restored_mse(X, y):
+                """MSE (target units, clipped) of the restored float32 network on one replica's rows."""
+                z = _forward([w[None] for w in Wb], [b[None, None] for b in bb], X[None])[0]
+                pred = p.y_mean + p.y_scale * z
                 if clip:
-                    pv = pv.clamp(-bound, bound)
-                val = float(((pv - p.yv) ** 2).mean())
+                    pred = pred.clamp(-bound, bound)
+                return float(((pred - y) ** 2).mean())
+
+            train_mse = restored_mse(p.X, p.y_raw)
+            # in mixed precision the tracked validation MSE came from bfloat16 passes: report the restored
+            # float32 network's own, like train_mse
+            val = float(best_val[local]) if low is None else restored_mse(p.Xv, p.yv)
             state = {
                 "spec": spec,
                 "weights": [w.numpy() for w in Wb],
@@ -783,7 +775,7 @@ class BatchedTrainer:
             # m/(1-b1^t) / (sqrt(v/(1-b2^t)) + eps)), given each replica's slab of each tensor as its own
             # tensor: the kernel's vector loop then starts at every replica's first entry, so a
             # replica's arithmetic does not depend on which other replicas share the stack.
-            g_slabs = [gs for g in grads for gs in g.unbind(0)]
+            (g_slabs,) = _replica_slabs(grads)
             torch._fused_adam_(slabs[0], g_slabs, slabs[1], slabs[2], [], [adam_step] * len(g_slabs),
                                lr=lr_at_step(cfg, step - 1), beta1=b1, beta2=b2, weight_decay=0.0, eps=eps,
                                amsgrad=False, maximize=False)

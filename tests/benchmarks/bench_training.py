@@ -125,13 +125,10 @@ def step_seconds(spec, replicas, rows, low, steps=60, rounds=3):
     """Best-of-``rounds`` seconds of one trainer step (hand-written backward + fused Adam)."""
     import torch
 
-    from manireg.nets.builders import init_parameters
-    from manireg.nets.training import _loss_grads
+    from manireg.nets.training import _loss_grads, _stacked_init
 
-    inits = [init_parameters(spec, seed=s) for s in range(replicas)]
-    L = len(inits[0])
-    Ws = [torch.stack([i[l][0] for i in inits]).contiguous() for l in range(L)]
-    bs = [torch.stack([i[l][1] for i in inits])[:, None, :].contiguous() for l in range(L)]
+    Ws, bs = _stacked_init(spec, range(replicas))
+    L = len(Ws)
     params = Ws + bs
     m1 = [torch.zeros_like(p) for p in params]
     m2 = [torch.zeros_like(p) for p in params]
