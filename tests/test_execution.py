@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 
 import manireg.curves.execution as ex
-from manireg.curves.execution import make_units, run_cells
+from manireg.curves.execution import make_units
 
 sys.path.insert(0, str(Path(__file__).parent))
 from _study_worker import make_study  # noqa: E402
@@ -52,7 +52,7 @@ def test_units_are_split_to_balance_workers(tmp_path):
         units = make_units(cells, data, n_workers=workers)
         # the same cells, each once
         assert sorted(c.key for u in units for c in u) == sorted(c.key for c in cells)
-        costs = [ex._unit_cost(u, data) for u in units]
+        costs = [len(u) * ex._cell_cost(u, data) for u in units]
         share = sum(costs) / workers
         # no unit of several cells is left above a worker's share
         assert all(cost <= share or len(u) == 1 for u, cost in zip(units, costs))
@@ -71,7 +71,7 @@ def test_a_failing_cost_estimate_does_not_stop_the_plan(tmp_path, monkeypatch):
 
     monkeypatch.setattr(KNNLearner, "cell_cost", broken)
     study = make_study(tmp_path / "s.sqlite")
-    units = ex._parallel_units(study.cells(), study.data, 2)
+    units = make_units(study.cells(), study.data, n_workers=2)
     assert sorted(c.key for u in units for c in u) == sorted(c.key for c in study.cells())
 
 

@@ -61,7 +61,9 @@ def make_units(cells, data=None, n_workers=1) -> list:
     the whole and holds more than one cell, it is split into two halves. Otherwise that one unit would
     be the critical path: in the standard benchmark study the five replicas at the largest n are over
     half of all the work. A replica's numbers do not depend on which replicas share its stack (see
-    :class:`manireg.nets.training.BatchedTrainer`), so splitting changes timing, never rows.
+    :class:`manireg.nets.training.BatchedTrainer`), so splitting changes timing, never rows. The
+    balanced units come costliest first (longest-processing-time order): the biggest unit starts at once
+    while the other workers take the small ones.
 
     Parameters
     ----------
@@ -73,7 +75,7 @@ def make_units(cells, data=None, n_workers=1) -> list:
     Returns
     -------
     list of list of Cell
-        In the order of first appearance (split halves stay adjacent).
+        In the order of first appearance, or costliest first when balanced.
     """
     units, index = [], {}
     for c in cells:
@@ -87,16 +89,19 @@ def make_units(cells, data=None, n_workers=1) -> list:
             units.append([c])
     if n_workers <= 1 or data is None or len(units) == 0:
         return units
-    costs = [_unit_cost(u, data) for u in units]
+    per_cell = [_cell_cost(u, data) for u in units]
+    costs = [len(u) * c for u, c in zip(units, per_cell)]
     share = sum(costs) / n_workers
     while True:
         i = max(range(len(units)), key=costs.__getitem__)
         if costs[i] <= share or len(units[i]) < 2:
-            return units
+            break
         unit, half = units[i], (len(units[i]) + 1) // 2
-        per_cell = costs[i] / len(unit)
         units[i:i + 1] = [unit[:half], unit[half:]]
-        costs[i:i + 1] = [per_cell * half, per_cell * (len(unit) - half)]
+        per_cell[i:i + 1] = [per_cell[i]] * 2
+        costs[i:i + 1] = [half * per_cell[i], (len(unit) - half) * per_cell[i]]
+    order = sorted(range(len(units)), key=lambda k: -costs[k])
+    return [units[k] for k in order]
 
 
 def _base_row(cell):
@@ -223,7 +228,7 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
                 record(run_unit(unit, data, torch_threads))
         elif executor == "processes":
             workers = n_jobs or os.cpu_count() or 1
-            _run_joblib(_parallel_units(pending, data, workers), data, workers, torch_threads, record)
+            _run_joblib(make_units(pending, data, workers), data, workers, torch_threads, record)
         else:
             _run_dask(pending, data, scheduler, n_jobs or 2, torch_threads, record)
     finally:
@@ -233,8 +238,8 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
     return summary
 
 
-def _unit_cost(unit, data):
-    """Estimated flops of a unit: its learner's cost of one cell times the cells.
+def _cell_cost(unit, data):
+    """Estimated flops of one cell of a unit (its learner's ``cell_cost``).
 
     Only a scheduling hint: if a learner's estimate fails (a custom learner's ``cell_cost`` may not
     know this data), the generic distance-computation estimate of the base class is used instead, and
@@ -244,22 +249,9 @@ def _unit_cost(unit, data):
 
     learner = make_learner(unit[0].learner)
     try:
-        cost = float(learner.cell_cost(int(unit[0].n), data))
+        return float(learner.cell_cost(int(unit[0].n), data))
     except Exception:  # noqa: BLE001 - a failing estimate must not stop the run
-        cost = Learner.cell_cost(learner, int(unit[0].n), data)
-    return len(unit) * cost
-
-
-def _parallel_units(cells, data, workers):
-    """Units balanced over ``workers`` (:func:`make_units`), costliest first.
-
-    Longest-processing-time order: the biggest net unit, which sets the critical path, starts at once
-    while the other workers take the small ones.
-    """
-    units = make_units(cells, data, workers)
-    costs = [_unit_cost(u, data) for u in units]
-    order = sorted(range(len(units)), key=lambda i: -costs[i])
-    return [units[i] for i in order]
+        return Learner.cell_cost(learner, int(unit[0].n), data)
 
 
 def _run_joblib(units, data, n_jobs, torch_threads, record):
@@ -300,7 +292,7 @@ def _run_dask(cells, data, scheduler, n_workers, torch_threads, record):
         )
     futures = []
     try:
-        units = _parallel_units(cells, data, max(1, sum(client.nthreads().values())))
+        units = make_units(cells, data, max(1, sum(client.nthreads().values())))
         data_future = client.scatter(data, broadcast=True)
         futures = [client.submit(run_unit, u, data_future, torch_threads, pure=False) for u in units]
         for fut in as_completed(futures):

@@ -150,7 +150,7 @@ class Learner:
     def cell_cost(self, n, data) -> float:
         """Rough floating-point operations of one cell of size ``n``; only used to balance work units
         over workers, so a factor of two does not matter. Default: a distance computation between the
-        ``n`` training and the ``n + n_test`` evaluation points."""
+        ``n`` training and the ``n + n_test`` evaluation points (what kNN does, brute force)."""
         return 2.0 * data.D * n * (n + len(data.y_test))
 
     def run(self, cells, data) -> list:  # pragma: no cover - abstract
@@ -301,10 +301,6 @@ class KNNLearner(Learner):
     def resolve(self, context) -> dict:
         k = self.spec.params.get("k")
         return {"c": float(self.spec.params.get("c", baselines.DEFAULT_KNN_C)), "k": None if k is None else int(k)}
-
-    def cell_cost(self, n, data) -> float:
-        """Brute-force distances from the ``n`` fit points to the ``n + n_test`` query points."""
-        return 2.0 * data.D * n * (n + len(data.y_test))
 
     def k_for(self, n_fit, data):
         k = self.spec.params.get("k")
