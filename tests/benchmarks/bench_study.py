@@ -34,6 +34,34 @@ import time
 import numpy as np
 
 
+def sklearn_loop(study):
+    """The study's cells one after another with scikit-learn's MLPRegressor (same hidden sizes, same rows,
+    early stopping on 20 %, standardised inputs); returns (seconds, mean test MSEs per n)."""
+    import pandas as pd
+    from sklearn.neural_network import MLPRegressor
+    from sklearn.pipeline import make_pipeline
+    from sklearn.preprocessing import StandardScaler
+
+    from manireg.curves.learners import make_learner
+
+    data = study.data
+    net = make_learner(data.learners[0])
+    ref = []
+    t0 = time.perf_counter()
+    for c in study.cells():
+        arch = net.architecture(c.n, data)
+        fit_rows, val_rows = data.cell_rows(c)
+        rows = np.concatenate([fit_rows, val_rows])
+        model = make_pipeline(StandardScaler(), MLPRegressor(hidden_layer_sizes=arch.hidden_sizes, early_stopping=True,
+                                                             validation_fraction=0.2, random_state=c.seed % 2**31))
+        model.fit(data.X[rows], data.y[rows])
+        pred = model.predict(data.X_test)
+        ref.append({"n": c.n, "repeat": c.repeat, "test_mse": float(np.mean((pred - data.y_test) ** 2)),
+                    "test_mse_clean": float(np.mean((pred - data.f_test) ** 2))})
+    seconds = time.perf_counter() - t0
+    return seconds, pd.DataFrame(ref).groupby("n")[["test_mse", "test_mse_clean"]].mean()
+
+
 def main(argv=None):
     p = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     p.add_argument("--quick", action="store_true", help="sizes 256..2048 and 3 repeats")
@@ -43,10 +71,6 @@ def main(argv=None):
     p.add_argument("--precision", default="auto", choices=("auto", "float32", "bfloat16"))
     p.add_argument("--no-reference", action="store_true", help="skip the scikit-learn loop")
     args = p.parse_args(argv)
-
-    from sklearn.neural_network import MLPRegressor
-    from sklearn.pipeline import make_pipeline
-    from sklearn.preprocessing import StandardScaler
 
     from manireg.curves.learners import LearnerSpec
     from manireg.curves.study import Study
@@ -85,33 +109,11 @@ def main(argv=None):
     table["failed_manireg"] = res.rows.groupby("n")["status"].agg(lambda s: int((s != "ok").sum()))
     if args.no_reference:
         print(f"\nmanireg: {t_ours:.1f} s (no reference run)")
-        print(f"noise variance {sample.noise_variance:.4f}")
-        with pd.option_context("display.width", 160, "display.float_format", "{:.4f}".format):
-            print(table.to_string())
-        return 0
-    data = study.data
-    learner = study.data.learners[0]
-    from manireg.curves.learners import make_learner
-
-    net = make_learner(learner)
-    ref = []
-    t0 = time.perf_counter()
-    for c in study.cells():
-        arch = net.architecture(c.n, data)
-        fit_rows, val_rows = data.cell_rows(c)
-        rows = np.concatenate([fit_rows, val_rows])
-        model = make_pipeline(StandardScaler(), MLPRegressor(hidden_layer_sizes=arch.hidden_sizes, early_stopping=True,
-                                                             validation_fraction=0.2, random_state=c.seed % 2**31))
-        model.fit(data.X[rows], data.y[rows])
-        pred = model.predict(data.X_test)
-        ref.append({"n": c.n, "repeat": c.repeat, "test_mse": float(np.mean((pred - data.y_test) ** 2)),
-                    "test_mse_clean": float(np.mean((pred - data.f_test) ** 2))})
-    t_ref = time.perf_counter() - t0
-
-    theirs = pd.DataFrame(ref).groupby("n")[["test_mse", "test_mse_clean"]].mean()
-    table = table.join(theirs.add_suffix("_sklearn"))
-    print(f"\nmanireg: {t_ours:.1f} s   sklearn MLPRegressor one cell at a time: {t_ref:.1f} s   "
-          f"ratio {t_ref / t_ours:.2f}x")
+    else:
+        t_ref, theirs = sklearn_loop(study)
+        table = table.join(theirs.add_suffix("_sklearn"))
+        print(f"\nmanireg: {t_ours:.1f} s   sklearn MLPRegressor one cell at a time: {t_ref:.1f} s   "
+              f"ratio {t_ref / t_ours:.2f}x")
     print(f"noise variance {sample.noise_variance:.4f}")
     with pd.option_context("display.width", 160, "display.float_format", "{:.4f}".format):
         print(table.to_string())
