@@ -1,11 +1,11 @@
-"""manireg: intrinsic geometry, network sizing and learning-curve studies for data near a manifold.
+"""manireg: intrinsic geometry, network sizing and learning-curve campaigns for data near a manifold.
 
-``import manireg as mr`` gives the names a study needs; the subpackages hold the rest:
+``import manireg as mr`` gives the names a campaign needs; the subpackages hold the rest:
 :mod:`manireg.data`, :mod:`manireg.geometry`, :mod:`manireg.theory`, :mod:`manireg.nets`,
 :mod:`manireg.curves`, :mod:`manireg.plots` and :mod:`manireg.widgets` (notebook panels).
 
-Names are imported on first use (``mr.Study`` imports :mod:`manireg.curves.study` then), so
-``import manireg`` is quick and a study's worker processes load only what they run.
+Names are imported on first use (``mr.Campaign`` imports :mod:`manireg.curves.campaign` then), so
+``import manireg`` is quick and a campaign's worker processes load only what they run.
 """
 
 from manireg._lazy import lazy_namespace
@@ -13,7 +13,7 @@ from manireg._lazy import lazy_namespace
 __version__ = "0.1.0"
 
 _EXPORTS = {
-    ".curves": ["LearnerSpec", "ResultStore", "Study", "StudyResult", "capacity_readout", "extrapolation_check",
+    ".curves": ["LearnerSpec", "ResultStore", "Campaign", "CampaignResult", "capacity_readout", "extrapolation_check",
                 "fit_all", "fit_exponent", "noise_variance", "plan_samples"],
     ".data": ["graph_manifold", "helix", "load_table", "make_regression", "pebble_scenario", "rendered_objects",
               "sphere", "swiss_roll", "torus"],

@@ -1,6 +1,6 @@
 """Lazy package namespaces: a name is imported from its submodule the first time it is used.
 
-``import manireg`` (and every study worker process, which imports :mod:`manireg.curves.execution`) then
+``import manireg`` (and every campaign worker process, which imports :mod:`manireg.curves.execution`) then
 costs only what it uses: the worker needs torch but not scikit-learn, scipy, pandas, matplotlib or the
 geometry code. Module-level ``__getattr__``/``__dir__`` are the standard hooks for this (PEP 562).
 """
@@ -21,7 +21,7 @@ def lazy_namespace(package: str, exports: dict, subpackages=()):
     package : str
         The package's ``__name__``.
     exports : dict
-        Relative submodule name (``".study"``) -> names it exports.
+        Relative submodule name (``".campaign"``) -> names it exports.
     subpackages : sequence of str
         Subpackage names reachable as attributes (``manireg.plots``) without an explicit import.
     """

@@ -1,6 +1,6 @@
 """The ``manireg`` command line. Thin: it parses arguments, calls core functions and prints their results.
 
-Commands: ``demo``, ``geometry``, ``study``, ``plan``, ``report``. Every command returns an exit code:
+Commands: ``demo``, ``geometry``, ``campaign``, ``plan``, ``report``. Every command returns an exit code:
 0 on success, 2 with a one-line reason on bad input (never a traceback for a user error), 130 when
 interrupted (finished cells are kept in the store; running again resumes).
 """
@@ -105,7 +105,7 @@ def _parse_learners(names, width_multipliers, precision="auto"):
 
 def _floor_settings(result, floor):
     """``(floor, extra fit keywords)`` for a --floor choice: "known" is the known noise variance of synthetic
-    data; "estimate" uses it too when known, else the study's noise estimate; "fit" and None pass through."""
+    data; "estimate" uses it too when known, else the campaign's noise estimate; "fit" and None pass through."""
     if floor == "known":
         if result.noise_variance is None:
             raise UsageError("--floor known needs data with a known noise variance (synthetic data); use --floor estimate or fit.")
@@ -113,7 +113,7 @@ def _floor_settings(result, floor):
     if floor == "estimate":
         nv = result.noise_variance if result.noise_variance is not None else result.noise_estimate
         if nv is None:
-            raise UsageError("--floor estimate needs a noise estimate, and none is recorded for this study; use --floor fit.")
+            raise UsageError("--floor estimate needs a noise estimate, and none is recorded for this campaign; use --floor fit.")
         return floor, {"noise_variance": float(nv)}
     return floor, {}
 
@@ -211,8 +211,8 @@ def _smoothness(args):
     return args.smoothness, None
 
 
-def cmd_study(args) -> int:
-    from .curves import Study
+def cmd_campaign(args) -> int:
+    from .curves import Campaign
 
     if args.workers is not None and args.scheduler is not None:
         raise UsageError("pass --workers N (local processes) or --scheduler ADDRESS (dask cluster), not both.")
@@ -227,41 +227,41 @@ def cmd_study(args) -> int:
         print(str(geo.dimension))
         _print_warnings(notes)
     d = args.dimension if args.dimension is not None else (None if geo is None else max(1.0, round(float(geo.dimension.consensus), 2)))
-    store = args.store or os.path.join(out, "study.sqlite")
-    study = Study(X=table.X, y=table.y, sizes=args.sizes, repeats=args.repeats,
+    store = args.store or os.path.join(out, "campaign.sqlite")
+    campaign = Campaign(X=table.X, y=table.y, sizes=args.sizes, repeats=args.repeats,
                   learners=_parse_learners(args.learners, args.width_multipliers, args.precision), d=d, s=s, seed=args.seed,
                   label=args.label, store=store)
     extra = {"source": args.data}
     if geo is not None:
         extra["geometry"] = geo.to_dict()
     executor = "dask" if args.scheduler else ("processes" if args.workers else "inprocess")
-    print(f"study '{args.label}': {len(study.cells())} cells (sizes {study.data.sizes}, {args.repeats} repeats), store {study.store.path}")
-    result = study.run(executor=executor, n_jobs=args.workers, scheduler=args.scheduler, progress=not args.quiet,
+    print(f"campaign '{args.label}': {len(campaign.cells())} cells (sizes {campaign.data.sizes}, {args.repeats} repeats), store {campaign.store.path}")
+    result = campaign.run(executor=executor, n_jobs=args.workers, scheduler=args.scheduler, progress=not args.quiet,
                        metadata=extra)
     print(f"noise variance estimate (first-neighbour): {result.noise_estimate:.4g}")
     parts = _read_out(result, smoothness_range=s_range, target_error=args.target_error, floor=args.floor,
                       allow_unverified=args.allow_unverified, seed=args.seed)
-    paths = _write_report(out, f"manireg study: {os.path.basename(args.data)}",
+    paths = _write_report(out, f"manireg campaign: {os.path.basename(args.data)}",
                           data={"source": args.data, "target": args.target, "n_samples": table.n_samples, "ambient_dim": table.X.shape[1]},
-                          geometry=geo, study=result, **parts,
-                          settings={"seed": args.seed, "sizes": study.data.sizes, "repeats": args.repeats, "learners": args.learners,
+                          geometry=geo, campaign=result, **parts,
+                          settings={"seed": args.seed, "sizes": campaign.data.sizes, "repeats": args.repeats, "learners": args.learners,
                                     "width_multipliers": args.width_multipliers, "precision": args.precision,
                                     "smoothness": s_range or s, "dimension": result.d,
-                                    "dimension_source": result.d_source, "floor": args.floor, "store": study.store.path})
+                                    "dimension_source": result.d_source, "floor": args.floor, "store": campaign.store.path})
     print(f"\nreport: {paths['html']}\nsummary: {paths['summary']}")
     return 0
 
 
 def cmd_plan(args) -> int:
-    from .curves import Study, fit_exponent, plan_samples
+    from .curves import Campaign, fit_exponent, plan_samples
     from .theory import ambient_exponent, regression_exponent, sizing_table
 
     if args.target_error is not None and args.target_error <= 0:
         raise UsageError(f"--target-error must be > 0; got {args.target_error}.")
     if args.from_store:
         if not os.path.exists(args.from_store):
-            raise UsageError(f"no store at '{args.from_store}'. Pass the --store file a study was run with.")
-        result = Study.from_store(args.from_store, args.study)
+            raise UsageError(f"no store at '{args.from_store}'. Pass the --store file a campaign was run with.")
+        result = Campaign.from_store(args.from_store, args.campaign)
         d = args.dimension if args.dimension is not None else result.d
         s = args.smoothness if args.smoothness is not None else result.s
         learners = sorted(set(result.rows["learner"]))
@@ -281,7 +281,7 @@ def cmd_plan(args) -> int:
                   f"{a['n_parameters']} parameters")
         return 0
     if args.dimension is None or args.smoothness is None:
-        raise UsageError("pass --dimension d and --smoothness s (or --from-store FILE with a finished study).")
+        raise UsageError("pass --dimension d and --smoothness s (or --from-store FILE with a finished campaign).")
     D = args.input_dim if args.input_dim is not None else max(1, int(math.ceil(args.dimension)))
     if D < args.dimension:
         raise UsageError(f"--input-dim ({D}) must be >= --dimension ({args.dimension}).")
@@ -290,7 +290,7 @@ def cmd_plan(args) -> int:
           + (f"; ambient 2s/(2s+D) = {ambient_exponent(D, args.smoothness):.4f} (D = {D})" if args.input_dim else ""))
     print(f"error ~ C n^-{b:.3f}: halving the error needs {2 ** (1 / b):.3g}x the samples, a tenth needs {10 ** (1 / b):.3g}x.")
     if args.target_error is not None:
-        print("the constant C is not known without a measured curve: run a study and use --from-store to turn "
+        print("the constant C is not known without a measured curve: run a campaign and use --from-store to turn "
               f"--target-error {args.target_error:g} into a number of samples with an interval.")
     table = sizing_table(args.n if args.n else [1e2, 1e3, 1e4, 1e5], args.dimension, args.smoothness, D)
     print()
@@ -299,29 +299,29 @@ def cmd_plan(args) -> int:
 
 
 def cmd_report(args) -> int:
-    from .curves import Study
+    from .curves import Campaign
     from .curves.store import ResultStore
 
     if not os.path.exists(args.store):
-        raise UsageError(f"no store at '{args.store}'. Pass the --store file a study was run with.")
+        raise UsageError(f"no store at '{args.store}'. Pass the --store file a campaign was run with.")
     out = _out_dir(args.out)
-    result = Study.from_store(args.store, args.study)
+    result = Campaign.from_store(args.store, args.campaign)
     if not len(result.rows):
-        raise UsageError(f"study '{result.label}' in '{args.store}' has no rows yet; run the study first.")
-    meta = ResultStore(args.store).study_meta(result.label)
+        raise UsageError(f"campaign '{result.label}' in '{args.store}' has no rows yet; run the campaign first.")
+    meta = ResultStore(args.store).campaign_meta(result.label)
     s_range = tuple(args.smoothness_range) if args.smoothness_range else None
     parts = _read_out(result, smoothness_range=s_range, target_error=args.target_error, floor=args.floor,
                       allow_unverified=args.allow_unverified, seed=args.seed)
-    paths = _write_report(out, f"manireg study '{result.label}' (rebuilt from its store)",
+    paths = _write_report(out, f"manireg campaign '{result.label}' (rebuilt from its store)",
                           data={"source": meta.get("source", "(recorded in the store)"), "n_samples": meta.get("n_total"),
                                 "ambient_dim": result.D, "fingerprint": meta.get("fingerprint")},
-                          geometry=meta.get("geometry"), study=result, **parts, settings={"store": args.store, "spec": result.spec, "floor": args.floor, "seed": args.seed})
+                          geometry=meta.get("geometry"), campaign=result, **parts, settings={"store": args.store, "spec": result.spec, "floor": args.floor, "seed": args.seed})
     print(f"\nreport: {paths['html']}\nsummary: {paths['summary']}")
     return 0
 
 
 def cmd_demo(args) -> int:
-    from .curves import LearnerSpec, Study
+    from .curves import LearnerSpec, Campaign
     from .data import pebble_scenario
 
     out = _out_dir(args.out)
@@ -340,22 +340,22 @@ def cmd_demo(args) -> int:
     print(str(geo))
     _print_warnings(notes)
     d_hat = max(1.0, round(float(geo.dimension.consensus), 2))
-    store = os.path.join(out, "study.sqlite")
-    study = Study.from_regression_sample(reg, sizes=sizes, repeats=repeats, d=d_hat, seed=args.seed, label="demo",
+    store = os.path.join(out, "campaign.sqlite")
+    campaign = Campaign.from_regression_sample(reg, sizes=sizes, repeats=repeats, d=d_hat, seed=args.seed, label="demo",
                                          learners=[LearnerSpec("net", params=net), LearnerSpec("knn")], store=store)
-    print(f"\nstudy: {len(study.cells())} cells (sizes {sizes}, {repeats} repeats, learners net and knn), "
-          f"sized with the estimated d = {d_hat:g} and s = {reg.smoothness}; store {study.store.path}")
-    result = study.run(progress=not args.quiet, metadata={"geometry": geo.to_dict(), "source": "built-in pebble scenario"})
+    print(f"\ncampaign: {len(campaign.cells())} cells (sizes {sizes}, {repeats} repeats, learners net and knn), "
+          f"sized with the estimated d = {d_hat:g} and s = {reg.smoothness}; store {campaign.store.path}")
+    result = campaign.run(progress=not args.quiet, metadata={"geometry": geo.to_dict(), "source": "built-in pebble scenario"})
     # the demo shows a plan even from an unverified curve; the plan then carries its warning in plain words
-    # (``manireg study`` refuses unless --allow-unverified is given)
+    # (``manireg campaign`` refuses unless --allow-unverified is given)
     parts = _read_out(result, smoothness_range=None, target_error=None, floor="known", allow_unverified=True, seed=args.seed)
     paths = _write_report(out, "manireg demo: pebble renderings",
                           data={"source": "built-in pebble scenario (manireg.data.pebble_scenario)", "n_samples": n,
                                 "ambient_dim": m.ambient_dim, "true_dimension": m.dimension, "smoothness": reg.smoothness,
                                 "noise_variance": reg.noise_variance},
-                          geometry=geo, study=result, **parts,
+                          geometry=geo, campaign=result, **parts,
                           settings={"seed": args.seed, "quick": args.quick, "sizes": sizes, "repeats": repeats,
-                                    "dimension_used": d_hat, "floor": "known noise variance", "store": study.store.path},
+                                    "dimension_used": d_hat, "floor": "known noise variance", "store": campaign.store.path},
                           true_dimension=m.dimension)
     print(f"\nreport: {paths['html']}\nsummary: {paths['summary']}")
     return 0
@@ -367,7 +367,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     parser = argparse.ArgumentParser(
         prog="manireg",
-        description="Intrinsic geometry, network sizing and learning-curve studies for regression on data near a manifold.",
+        description="Intrinsic geometry, network sizing and learning-curve campaigns for regression on data near a manifold.",
     )
     parser.add_argument("--version", action="version", version=f"manireg {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
@@ -391,7 +391,7 @@ def build_parser() -> argparse.ArgumentParser:
     common(p, "manireg-out/geometry")
     p.set_defaults(func=cmd_geometry)
 
-    p = sub.add_parser("study", help="run or resume a learning-curve study on a data file and write its report")
+    p = sub.add_parser("campaign", help="run or resume a learning-curve campaign on a data file and write its report")
     p.add_argument("data", help="CSV, Parquet, NPZ or NPY file")
     p.add_argument("--target", required=True, help="target column")
     g = p.add_mutually_exclusive_group()
@@ -405,8 +405,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--precision", default="auto", choices=["auto", "float32", "bfloat16"],
                    help="arithmetic of the nets (default: %(default)s, bfloat16 where the CPU has it and the net is large; "
                         "float32 for noise-free data fitted very closely)")
-    p.add_argument("--store", help="SQLite store (default: OUT/study.sqlite); re-running resumes")
-    p.add_argument("--label", default="study", help="study name in the store (default: %(default)s)")
+    p.add_argument("--store", help="SQLite store (default: OUT/campaign.sqlite); re-running resumes")
+    p.add_argument("--label", default="campaign", help="campaign name in the store (default: %(default)s)")
     g = p.add_mutually_exclusive_group()
     g.add_argument("--workers", type=int, help="local worker processes")
     g.add_argument("--scheduler", help="address of a dask.distributed scheduler")
@@ -415,8 +415,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--allow-unverified", action="store_true", help="plan even from a curve without a measured exponent")
     p.add_argument("--no-geometry", action="store_true", help="skip the geometry read-out (then give --dimension)")
     p.add_argument("--no-embed", action="store_true", help="skip the 2-D view")
-    common(p, "manireg-out/study")
-    p.set_defaults(func=cmd_study)
+    common(p, "manireg-out/campaign")
+    p.set_defaults(func=cmd_campaign)
 
     p = sub.add_parser("plan", help="network sizing and samples for a target error")
     p.add_argument("--dimension", type=float, help="intrinsic dimension d")
@@ -424,17 +424,17 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--target-error", type=float, help="test error to reach")
     p.add_argument("--input-dim", type=int, help="ambient dimension D (for sizing and the ambient exponent)")
     p.add_argument("--n", type=float, nargs="+", help="sample sizes for the sizing table (default 1e2 1e3 1e4 1e5)")
-    p.add_argument("--from-store", help="plan from a finished study's measured curve")
-    p.add_argument("--study", help="study label in the store")
+    p.add_argument("--from-store", help="plan from a finished campaign's measured curve")
+    p.add_argument("--campaign", help="campaign label in the store")
     p.add_argument("--learner", help="learner whose curve to use")
     p.add_argument("--floor", default="estimate", choices=["estimate", "fit", "none", "known"])
     p.add_argument("--allow-unverified", action="store_true")
     p.add_argument("--seed", type=int, default=0)
     p.set_defaults(func=cmd_plan)
 
-    p = sub.add_parser("report", help="rebuild the report of a study from its store, without training")
-    p.add_argument("store", help="the study's SQLite store")
-    p.add_argument("--study", help="study label (when the store holds several)")
+    p = sub.add_parser("report", help="rebuild the report of a campaign from its store, without training")
+    p.add_argument("store", help="the campaign's SQLite store")
+    p.add_argument("--campaign", help="campaign label (when the store holds several)")
     p.add_argument("--target-error", type=float)
     p.add_argument("--smoothness-range", type=float, nargs=2, metavar=("A", "B"))
     p.add_argument("--floor", default="estimate", choices=["estimate", "fit", "none", "known"])

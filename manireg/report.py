@@ -1,4 +1,4 @@
-"""One self-contained HTML report per study (figures embedded as PNG) and a ``summary.json`` beside it.
+"""One self-contained HTML report per campaign (figures embedded as PNG) and a ``summary.json`` beside it.
 
 The report draws only from result objects (their ``to_dict()``/``to_frame()`` and the figure functions in
 :mod:`manireg.plots`); it never recomputes a number.
@@ -38,7 +38,7 @@ class ReportSection:
 
 
 def package_versions() -> dict:
-    """Versions of Python and the packages a study's numbers depend on."""
+    """Versions of Python and the packages a campaign's numbers depend on."""
     from importlib import metadata
 
     out = {"python": platform.python_version()}
@@ -160,7 +160,7 @@ def exponent_table_frame(fits):
     return pd.DataFrame(rows)
 
 
-def compose_report(*, title: str, data: dict, geometry=None, sizing=None, study=None, fits=None, plan=None,
+def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campaign=None, fits=None, plan=None,
                    plan_note: str | None = None, extrapolation=None, settings: dict | None = None,
                    true_dimension=None):
     """Turn finished result objects into report sections and the JSON summary.
@@ -170,7 +170,7 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, study=
     data : dict describing the data (source, n, D, target, and for synthetic data the known d, s, noise).
     geometry : GeometrySummary or a dict from its ``to_dict()`` (a store holds the dict; then only tables).
     sizing : SizingTable, optional
-    study : StudyResult, optional
+    campaign : CampaignResult, optional
     fits : ExponentTable, optional
     plan : SamplePlan, optional; ``plan_note`` says why there is none.
     extrapolation : list of ExtrapolationCheck, optional
@@ -247,17 +247,17 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, study=
         summary["sizing"] = sizing.to_frame().to_dict(orient="records")
         sections.append(sec)
 
-    if study is not None:
+    if campaign is not None:
         sec = ReportSection("Learning curves")
-        rows = study.rows
+        rows = campaign.rows
         ok = rows[rows["status"] == "ok"] if "status" in rows else rows
         failed = rows[rows["status"] == "failed"] if "status" in rows else rows.iloc[:0]
         sec.paragraphs.append(
             f"{len(ok)} finished cells ({len(failed)} failed) over sizes {sorted(set(int(v) for v in ok['n']))}, "
-            f"learners {sorted(set(ok['learner']))}; d = {study.d:g} ({study.d_source}), s = {study.s:g}, D = {study.D}.")
+            f"learners {sorted(set(ok['learner']))}; d = {campaign.d:g} ({campaign.d_source}), s = {campaign.s:g}, D = {campaign.D}.")
         if len(failed):
             sec.tables.append(("Failed cells", failed[["learner", "n", "repeat", "error"]]))
-        summary["study"] = study.to_dict()
+        summary["campaign"] = campaign.to_dict()
         summary["rows"] = ok.drop(columns=[c for c in ("config_json",) if c in ok]).to_dict(orient="records")
         if fits is not None and len(fits):
             for f in fits:

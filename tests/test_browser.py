@@ -1,7 +1,7 @@
 """Real-browser checks: the four panels served by Voila, driven by headless Chromium through playwright.
 
 One small notebook, written into a temporary folder, builds on seeded synthetic data (400 points on a
-2-sphere in R^5) a SizingPanel, a GeometryPanel, a CurvePanel of a tiny finished study and a StudyPanel.
+2-sphere in R^5) a SizingPanel, a GeometryPanel, a CurvePanel of a tiny finished campaign and a WorkbenchPanel.
 Voila runs it once; the tests below share the page. Each test waits for its panel to render, saves an
 element screenshot to tests/artifacts/ (copied to docs/img/ for docs/panels.md) and, for the sizing,
 geometry and curve panels, changes a control in the browser and checks that the rendered text changed.
@@ -45,27 +45,27 @@ def _code(source):
 PANELS_NOTEBOOK = {
     "cells": [
         _code("from manireg.curves import LearnerSpec\n"
-              "from manireg.curves.study import Study\n"
+              "from manireg.curves.campaign import Campaign\n"
               "from manireg.data import make_regression, sphere\n"
-              "from manireg.widgets import CurvePanel, GeometryPanel, SizingPanel, StudyPanel\n"
+              "from manireg.widgets import CurvePanel, GeometryPanel, SizingPanel, WorkbenchPanel\n"
               "sample = make_regression(sphere(400, 2, ambient_dim=5, seed=0), 1.0, noise_std=0.1, seed=1)\n"
               "net = LearnerSpec('net', params={'max_steps': 200, 'min_steps': 50, 'patience_steps': 100})\n"
-              "study = Study.from_regression_sample(sample, sizes=[24, 48, 96, 192], repeats=2,\n"
-              "                                     learners=[net, 'knn'], seed=0, store='study.sqlite')\n"
-              "study.run(progress=False)"),
+              "campaign = Campaign.from_regression_sample(sample, sizes=[24, 48, 96, 192], repeats=2,\n"
+              "                                     learners=[net, 'knn'], seed=0, store='campaign.sqlite')\n"
+              "campaign.run(progress=False)"),
         _code("sizing = SizingPanel(n=1000, d=2.0, s=1.5, input_dim=256)\n"
               "sizing.add_class('mr-sizing-panel')\nsizing"),
         _code("geometry = GeometryPanel(sample.X, sample.y, true_dimension=2, n_boot=50, seed=0)\n"
               "geometry.add_class('mr-geometry-panel')\ngeometry"),
-        # the tiny study spans less than a decade of n, so its verdict is not "measured": the planner plans
+        # the tiny campaign spans less than a decade of n, so its verdict is not "measured": the planner plans
         # only with "plan from an unverified fit" ticked (and marks the plan with a warning)
-        _code("curves = CurvePanel(study.result(), n_boot=200, seed=0)\n"
+        _code("curves = CurvePanel(campaign.result(), n_boot=200, seed=0)\n"
               "curves.allow_unverified.value = True\n"
               "curves.target_error.value = 0.05\n"
               "curves.add_class('mr-curve-panel')\ncurves"),
-        _code("study_panel = StudyPanel(sample.X, sample.y, s=1.0, study=study,\n"
+        _code("campaign_panel = WorkbenchPanel(sample.X, sample.y, s=1.0, campaign=campaign,\n"
               "                         geometry_kwargs={'true_dimension': 2, 'n_boot': 50})\n"
-              "study_panel.add_class('mr-study-panel')\nstudy_panel"),
+              "campaign_panel.add_class('mr-campaign-panel')\ncampaign_panel"),
     ],
     "metadata": {"kernelspec": {"display_name": "Python 3", "language": "python", "name": "python3"}},
     "nbformat": 4, "nbformat_minor": 5,
@@ -155,7 +155,7 @@ def page(voila_server):
                     pg.set_default_timeout(WAIT_MS)
             try:
                 # the last panel's tabs: by then every cell has run
-                pg.wait_for_selector(".mr-study-panel .lm-TabBar-tab, .mr-study-panel .p-TabBar-tab",
+                pg.wait_for_selector(".mr-campaign-panel .lm-TabBar-tab, .mr-campaign-panel .p-TabBar-tab",
                                      timeout=240_000)
             except Exception:
                 pg.screenshot(path=str(ARTIFACTS / "panels_page_failed.png"), full_page=True)
@@ -284,15 +284,15 @@ def test_curve_panel(page):
     assert_no_error(panel)
 
 
-def test_study_panel(page):
-    panel = page.locator(".mr-study-panel")
+def test_campaign_panel(page):
+    panel = page.locator(".mr-campaign-panel")
     panel.locator("text=consensus").first.wait_for()
     wait_images(panel, 4)  # the geometry tab's figures
     assert_no_error(panel)
-    shot(panel, "study_panel")
+    shot(panel, "campaign_panel")
 
     panel.locator(".lm-TabBar-tab, .p-TabBar-tab", has_text="Learning curves").first.click()
     panel.locator("text=local slopes").first.wait_for()
     wait_images(panel, 2)
     assert_no_error(panel)
-    shot(panel, "study_panel_curves")
+    shot(panel, "campaign_panel_curves")

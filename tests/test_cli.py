@@ -36,24 +36,24 @@ def sphere_csv(tmp_path_factory):
 
 
 @pytest.fixture(scope="module")
-def finished_study(sphere_csv, tmp_path_factory):
-    out = tmp_path_factory.mktemp("study")
-    r = _cli("study", str(sphere_csv), "--target", "y", "--sizes", "40", "80", "160", "320", "--repeats", "3",
+def finished_campaign(sphere_csv, tmp_path_factory):
+    out = tmp_path_factory.mktemp("campaign")
+    r = _cli("campaign", str(sphere_csv), "--target", "y", "--sizes", "40", "80", "160", "320", "--repeats", "3",
              "--learners", "knn", "net", "--no-embed", "--quiet", "--out", str(out), "--smoothness", "1",
              "--precision", "float32")
     assert r.returncode == 0, r.stderr
     return out, r
 
 
-def test_study_writes_report_consistent_with_core(finished_study):
-    out, r = finished_study
+def test_campaign_writes_report_consistent_with_core(finished_campaign):
+    out, r = finished_campaign
     summary = json.loads((out / "summary.json").read_text())
-    for key in ("data", "geometry", "sizing", "study", "rows", "exponents", "optimisation_limited", "settings", "versions", "note", "figures"):
+    for key in ("data", "geometry", "sizing", "campaign", "rows", "exponents", "optimisation_limited", "settings", "versions", "note", "figures"):
         assert key in summary, key
     # the report's exponents equal the core fit on the same stored rows with the same settings
-    from manireg.curves import Study
+    from manireg.curves import Campaign
 
-    res = Study.from_store(out / "study.sqlite")
+    res = Campaign.from_store(out / "campaign.sqlite")
     core = res.fit("knn", floor="estimate", smoothness=1.0, seed=0)
     rep = summary["exponents"]["knn"]
     assert rep["exponent"] == pytest.approx(core.exponent, rel=1e-9)
@@ -72,24 +72,24 @@ def test_study_writes_report_consistent_with_core(finished_study):
     assert "asymptotic statements" in html and "data:image/png;base64," in html
 
 
-def test_report_rebuilds_from_store_without_training(finished_study, tmp_path):
-    out, _ = finished_study
-    before = sqlite3.connect(out / "study.sqlite").execute("SELECT COUNT(*) FROM cells").fetchone()[0]
-    assert main(["report", str(out / "study.sqlite"), "--out", str(tmp_path), "--quiet"]) == 0
-    after = sqlite3.connect(out / "study.sqlite").execute("SELECT COUNT(*) FROM cells").fetchone()[0]
+def test_report_rebuilds_from_store_without_training(finished_campaign, tmp_path):
+    out, _ = finished_campaign
+    before = sqlite3.connect(out / "campaign.sqlite").execute("SELECT COUNT(*) FROM cells").fetchone()[0]
+    assert main(["report", str(out / "campaign.sqlite"), "--out", str(tmp_path), "--quiet"]) == 0
+    after = sqlite3.connect(out / "campaign.sqlite").execute("SELECT COUNT(*) FROM cells").fetchone()[0]
     assert before == after  # nothing trained, nothing added
     a = json.loads((out / "summary.json").read_text())["exponents"]["knn"]
     b = json.loads((tmp_path / "summary.json").read_text())["exponents"]["knn"]
     assert a["exponent"] == pytest.approx(b["exponent"]) and a["verdict"] == b["verdict"]
 
 
-def test_plan_from_store_and_from_rules(finished_study, capsys):
-    out, _ = finished_study
+def test_plan_from_store_and_from_rules(finished_campaign, capsys):
+    out, _ = finished_campaign
     assert main(["plan", "--dimension", "2", "--smoothness", "1", "--input-dim", "64"]) == 0
     text = capsys.readouterr().out
     # 2s/(2s+d) = 0.5 for s = 1, d = 2 (REFERENCES.md exponent table); halving the error takes 2^(1/0.5) = 4x
     assert "2s/(2s+d) = 0.5000" in text and "needs 4x the samples" in text
-    rc = main(["plan", "--from-store", str(out / "study.sqlite"), "--learner", "knn", "--target-error", "0.3", "--allow-unverified"])
+    rc = main(["plan", "--from-store", str(out / "campaign.sqlite"), "--learner", "knn", "--target-error", "0.3", "--allow-unverified"])
     text = capsys.readouterr().out
     assert rc == 0 and "samples for test error 0.3" in text
 
@@ -115,10 +115,10 @@ def test_demo_quick(tmp_path):
     "args,message",
     [
         (["geometry", "nope.csv"], "no such file"),
-        (["study", "{csv}", "--target", "price"], "target column 'price' is not in"),
-        (["study", "{csv}", "--target", "y", "--sizes", "100", "100000", "--no-geometry", "--dimension", "2"], "size"),
-        (["study", "{nan}", "--target", "y"], "missing or infinite"),
-        (["study", "{csv}", "--target", "y", "--repeats", "0"], "--repeats must be >= 1"),
+        (["campaign", "{csv}", "--target", "price"], "target column 'price' is not in"),
+        (["campaign", "{csv}", "--target", "y", "--sizes", "100", "100000", "--no-geometry", "--dimension", "2"], "size"),
+        (["campaign", "{nan}", "--target", "y"], "missing or infinite"),
+        (["campaign", "{csv}", "--target", "y", "--repeats", "0"], "--repeats must be >= 1"),
         (["plan", "--dimension", "2"], "pass --dimension d and --smoothness s"),
         (["report", "missing.sqlite"], "no store at"),
     ],
@@ -148,13 +148,13 @@ def test_no_command_prints_help(capsys):
 
 def test_interrupt_then_resume(sphere_csv, tmp_path):
     out = tmp_path / "run"
-    args = [sys.executable, "-m", "manireg", "study", str(sphere_csv), "--target", "y", "--sizes", "40", "80", "160", "320",
+    args = [sys.executable, "-m", "manireg", "campaign", str(sphere_csv), "--target", "y", "--sizes", "40", "80", "160", "320",
             "--repeats", "3", "--learners", "net", "knn", "--no-geometry", "--dimension", "2", "--quiet", "--out", str(out)]
     # a shell without job control starts background commands with SIGINT ignored, and Python then installs no
     # handler; give the child the default disposition, as an interactive terminal would
     proc = subprocess.Popen(args, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=ENV,
                             preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))
-    store = out / "study.sqlite"
+    store = out / "campaign.sqlite"
     deadline = time.time() + 300
     n_rows = 0
     while time.time() < deadline and proc.poll() is None:
@@ -167,7 +167,7 @@ def test_interrupt_then_resume(sphere_csv, tmp_path):
                 break
         time.sleep(0.05)
     if proc.poll() is not None:
-        pytest.skip("the study finished before it could be interrupted")
+        pytest.skip("the campaign finished before it could be interrupted")
     proc.send_signal(signal.SIGINT)
     _, err = proc.communicate(timeout=120)
     assert proc.returncode == 130, err

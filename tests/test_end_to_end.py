@@ -1,11 +1,11 @@
-"""End to end on a sphere with a target of known Hölder order: study -> fit -> verdict -> plan."""
+"""End to end on a sphere with a target of known Hölder order: campaign -> fit -> verdict -> plan."""
 
 import warnings
 
 import numpy as np
 import pytest
 
-from manireg.curves import LearnerSpec, Study
+from manireg.curves import LearnerSpec, Campaign
 from manireg.curves.fitting import VERDICT_INSUFFICIENT, VERDICT_MEASURED, VERDICT_NOT_POWER_LAW
 from manireg.data import make_regression, sphere
 from manireg.theory import ambient_exponent, regression_exponent
@@ -15,9 +15,9 @@ from manireg.theory import ambient_exponent, regression_exponent
 def knn_result():
     # S^2 in R^10, lacunary target of Hölder order s = 0.5, label noise sd 0.3
     reg = make_regression(sphere(17000, 2, ambient_dim=10, seed=0), 0.5, noise_std=0.3, seed=1)
-    study = Study.from_regression_sample(reg, sizes=[200, 400, 800, 1600, 3200, 6400, 12800], repeats=5,
+    campaign = Campaign.from_regression_sample(reg, sizes=[200, 400, 800, 1600, 3200, 6400, 12800], repeats=5,
                                          learners=["knn"], test_size=3000)
-    return study.run(progress=False)
+    return campaign.run(progress=False)
 
 
 @pytest.mark.parametrize("metric,floor", [("test_mse_clean", None), ("test_mse", "estimate")])
@@ -49,10 +49,10 @@ def test_network_exponent_reported_with_interval_and_verdict():
     # the network's exponent, whatever it is, comes with an interval and a verdict; never asserted equal to theory
     reg = make_regression(sphere(3000, 2, ambient_dim=10, seed=2), 0.5, noise_std=0.3, seed=3)
     net = LearnerSpec("net", params={"max_steps": 600, "min_steps": 100, "patience_steps": 200})
-    study = Study.from_regression_sample(reg, sizes=[100, 200, 400, 800, 1600], repeats=3, learners=[net], test_size=800)
+    campaign = Campaign.from_regression_sample(reg, sizes=[100, 200, 400, 800, 1600], repeats=3, learners=[net], test_size=800)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # fewer than 5 repeats warns
-        fit = study.run(progress=False).fit("net", floor="estimate")
+        fit = campaign.run(progress=False).fit("net", floor="estimate")
     assert np.all(np.isfinite(fit.interval)) and fit.interval[0] <= fit.exponent <= fit.interval[1]
     assert fit.verdict in (VERDICT_MEASURED, VERDICT_NOT_POWER_LAW, VERDICT_INSUFFICIENT)
     text = str(fit)

@@ -10,7 +10,7 @@ import manireg.curves.execution as ex
 from manireg.curves.execution import make_units
 
 sys.path.insert(0, str(Path(__file__).parent))
-from _study_worker import make_study  # noqa: E402
+from _campaign_worker import make_campaign  # noqa: E402
 
 NUMBERS = ["train_mse", "val_mse", "test_mse", "test_mse_clean"]
 SAME = ["learner", "n", "repeat", "seed", "steps", "best_step", "stop_reason", "n_parameters", "width", "depth",
@@ -32,11 +32,11 @@ def _compare(a, b):
 
 @pytest.fixture(scope="module")
 def reference(tmp_path_factory):
-    return make_study(tmp_path_factory.mktemp("ref") / "s.sqlite").run(progress=False).rows
+    return make_campaign(tmp_path_factory.mktemp("ref") / "s.sqlite").run(progress=False).rows
 
 
 def test_units_batch_net_repeats(tmp_path):
-    cells = make_study(tmp_path / "s.sqlite").cells()
+    cells = make_campaign(tmp_path / "s.sqlite").cells()
     units = make_units(cells)
     net = [u for u in units if u[0].learner.kind == "net"]
     assert len(net) == 3 and all(len(u) == 2 and len({c.n for c in u}) == 1 for u in net)
@@ -44,8 +44,8 @@ def test_units_batch_net_repeats(tmp_path):
 
 
 def test_units_are_split_to_balance_workers(tmp_path):
-    study = make_study(tmp_path / "s.sqlite")
-    cells, data = study.cells(), study.data
+    campaign = make_campaign(tmp_path / "s.sqlite")
+    cells, data = campaign.cells(), campaign.data
     whole = make_units(cells)
     assert make_units(cells, data, n_workers=1) == whole
     for workers in (2, 3):
@@ -70,18 +70,18 @@ def test_a_failing_cost_estimate_does_not_stop_the_plan(tmp_path, monkeypatch):
         raise RuntimeError("no estimate")
 
     monkeypatch.setattr(KNNLearner, "cell_cost", broken)
-    study = make_study(tmp_path / "s.sqlite")
-    units = make_units(study.cells(), study.data, n_workers=2)
-    assert sorted(c.key for u in units for c in u) == sorted(c.key for c in study.cells())
+    campaign = make_campaign(tmp_path / "s.sqlite")
+    units = make_units(campaign.cells(), campaign.data, n_workers=2)
+    assert sorted(c.key for u in units for c in u) == sorted(c.key for c in campaign.cells())
 
 
 def test_split_units_give_the_same_rows(tmp_path):
     # make_units may split a unit; the rows must not change by a single bit (see
     # test_training.test_replica_numbers_do_not_depend_on_the_stack).
-    study = make_study(tmp_path / "s.sqlite", learners=("net",))
-    unit = [c for c in study.cells() if c.n == 160]
-    together = ex.run_unit(unit, study.data)
-    apart = ex.run_unit(unit[:1], study.data) + ex.run_unit(unit[1:], study.data)
+    campaign = make_campaign(tmp_path / "s.sqlite", learners=("net",))
+    unit = [c for c in campaign.cells() if c.n == 160]
+    together = ex.run_unit(unit, campaign.data)
+    apart = ex.run_unit(unit[:1], campaign.data) + ex.run_unit(unit[1:], campaign.data)
     for a, b in zip(together, apart):
         for col in NUMBERS + SAME[:-2]:
             assert a[col] == b[col], col
@@ -98,12 +98,12 @@ def test_one_fit_call_per_learner_and_size(tmp_path, monkeypatch):
         return orig(self, tasks)
 
     monkeypatch.setattr(tr.BatchedTrainer, "fit", spy)
-    make_study(tmp_path / "s.sqlite", learners=("net",)).run(progress=False)
+    make_campaign(tmp_path / "s.sqlite", learners=("net",)).run(progress=False)
     assert calls == [2, 2, 2]
 
 
 def test_processes_match_inprocess(tmp_path, reference):
-    rows = make_study(tmp_path / "s.sqlite").run(executor="processes", n_jobs=2, progress=False).rows
+    rows = make_campaign(tmp_path / "s.sqlite").run(executor="processes", n_jobs=2, progress=False).rows
     _compare(rows, reference)
 
 
@@ -111,36 +111,36 @@ def test_dask_local_cluster_matches_inprocess(tmp_path, reference):
     distributed = pytest.importorskip("distributed")
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=False,
                                   dashboard_address=None) as cluster, distributed.Client(cluster) as client:
-        rows = make_study(tmp_path / "s.sqlite").run(executor="dask", scheduler=client, progress=False).rows
+        rows = make_campaign(tmp_path / "s.sqlite").run(executor="dask", scheduler=client, progress=False).rows
     _compare(rows, reference)
 
 
 def test_second_run_skips_everything(tmp_path):
-    study = make_study(tmp_path / "s.sqlite", learners=("knn",))
-    first = study.run(progress=False)
-    again = study.run(progress=False)
+    campaign = make_campaign(tmp_path / "s.sqlite", learners=("knn",))
+    first = campaign.run(progress=False)
+    again = campaign.run(progress=False)
     assert again.summary["ran"] == 0 and again.summary["skipped"] == len(first.rows) == 6
 
 
 def test_failed_cells_are_stored_and_retried_only_when_asked(tmp_path, monkeypatch):
     from manireg.curves.learners import KNNLearner
 
-    study = make_study(tmp_path / "s.sqlite", learners=("knn",))
+    campaign = make_campaign(tmp_path / "s.sqlite", learners=("knn",))
 
     def broken(self, cells, data):
         raise RuntimeError("solver diverged")
 
     monkeypatch.setattr(KNNLearner, "run", broken)
-    res = study.run(progress=False)
+    res = campaign.run(progress=False)
     assert (res.rows["status"] == "failed").all() and res.rows["error"].str.contains("solver diverged").all()
     monkeypatch.undo()
-    assert study.run(progress=False).summary["ran"] == 0
-    res = study.run(progress=False, retry_failed=True)
+    assert campaign.run(progress=False).summary["ran"] == 0
+    res = campaign.run(progress=False, retry_failed=True)
     assert (res.rows["status"] == "ok").all() and len(res.rows) == 6
 
 
 def test_keyboard_interrupt_keeps_finished_cells(tmp_path, monkeypatch):
-    study = make_study(tmp_path / "s.sqlite", learners=("knn",))
+    campaign = make_campaign(tmp_path / "s.sqlite", learners=("knn",))
     inner, count = ex.run_unit, [0]
 
     def interrupt_third(*a, **k):
@@ -151,27 +151,27 @@ def test_keyboard_interrupt_keeps_finished_cells(tmp_path, monkeypatch):
 
     monkeypatch.setattr(ex, "run_unit", interrupt_third)
     with pytest.raises(KeyboardInterrupt):
-        study.run(progress=False)
-    assert len(study.result().rows) == 2
+        campaign.run(progress=False)
+    assert len(campaign.result().rows) == 2
     monkeypatch.undo()
-    assert study.run(progress=False).summary["ran"] == 4
+    assert campaign.run(progress=False).summary["ran"] == 4
 
 
 def test_progress_bar_counts_cells(tmp_path, capsys):
-    make_study(tmp_path / "s.sqlite", learners=("knn",)).run(progress=True)
+    make_campaign(tmp_path / "s.sqlite", learners=("knn",)).run(progress=True)
     err = capsys.readouterr().err
     assert "6/6" in err
 
 
 def test_bad_executor(tmp_path):
-    study = make_study(tmp_path / "s.sqlite", learners=("knn",))
+    campaign = make_campaign(tmp_path / "s.sqlite", learners=("knn",))
     with pytest.raises(ValueError, match="'executor' parameter of run_cells must be one of"):
-        study.run(executor="threads")
-    assert len(study.result().rows) == 0
+        campaign.run(executor="threads")
+    assert len(campaign.result().rows) == 0
 
 
 def test_result_fit_and_plan(tmp_path):
-    res = make_study(tmp_path / "s.sqlite", learners=("knn",)).run(progress=False)
+    res = make_campaign(tmp_path / "s.sqlite", learners=("knn",)).run(progress=False)
     fit = res.fit("knn", n_boot=50, metric="test_mse_clean")
     assert np.isfinite(fit.to_dict()["exponent"])
 
@@ -179,8 +179,8 @@ def test_result_fit_and_plan(tmp_path):
 def test_stop_flag_pauses_between_units_and_run_resumes(tmp_path):
     import threading
 
-    study = make_study(tmp_path / "s.sqlite")
-    total = len(study.cells())
+    campaign = make_campaign(tmp_path / "s.sqlite")
+    total = len(campaign.cells())
     stop = threading.Event()
     seen = []
 
@@ -188,7 +188,7 @@ def test_stop_flag_pauses_between_units_and_run_resumes(tmp_path):
         seen.append(len(rows))
         stop.set()  # ask to stop after the first unit
 
-    res = study.run(progress=False, stop=stop, on_unit=after_unit)
+    res = campaign.run(progress=False, stop=stop, on_unit=after_unit)
     assert len(seen) == 1 and res.summary["stopped"] and 0 < len(res.rows) < total
-    again = study.run(progress=False)  # resume
+    again = campaign.run(progress=False)  # resume
     assert len(again.rows) == total and again.summary["skipped"] == len(res.rows) and not again.summary["stopped"]

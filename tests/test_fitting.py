@@ -31,7 +31,7 @@ SIZES = np.geomspace(100, 10_000, 7).round().astype(int)
 
 
 def make_curve(b=0.5, a=1.0, c=0.0, sizes=SIZES, repeats=8, noise=0.1, seed=0, learner="net", kink=None):
-    """Study rows of a synthetic learning curve with known exponent ``b`` and floor ``c``.
+    """Campaign rows of a synthetic learning curve with known exponent ``b`` and floor ``c``.
 
     ``kink=(n_k, b2)`` switches the exponent to ``b2`` above ``n_k`` (continuous curve).
     """

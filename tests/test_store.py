@@ -15,14 +15,14 @@ from manireg.curves.store import ResultStore, StoreError
 from manireg.curves.sweep import ROW_COLUMNS
 
 HERE = Path(__file__).parent
-WORKER = HERE / "_study_worker.py"
+WORKER = HERE / "_campaign_worker.py"
 sys.path.insert(0, str(HERE))
-from _study_worker import make_study  # noqa: E402
+from _campaign_worker import make_campaign  # noqa: E402
 
 
-def _row(key, status="ok", test=1.0, study="s"):
+def _row(key, status="ok", test=1.0, campaign="s"):
     row = dict.fromkeys(ROW_COLUMNS)
-    row.update(key=key, study=study, learner="knn", n=10, repeat=0, seed=1, test_mse=test, status=status,
+    row.update(key=key, campaign=campaign, learner="knn", n=10, repeat=0, seed=1, test_mse=test, status=status,
                error=None if status == "ok" else "boom")
     return row
 
@@ -59,7 +59,7 @@ def test_store_from_an_older_version_gains_new_columns_and_keeps_its_rows(tmp_pa
     from manireg.curves.store import _TYPES
 
     con.execute(f"CREATE TABLE cells ({', '.join(f'{c!r} {_TYPES[c]}' for c in old_columns)})")
-    con.execute("INSERT INTO cells (key, study, learner, n, repeat, test_mse, status) "
+    con.execute("INSERT INTO cells (key, campaign, learner, n, repeat, test_mse, status) "
                 "VALUES ('old', 's', 'knn', 10, 0, 0.5, 'ok')")
     con.commit()
     con.close()
@@ -91,12 +91,12 @@ def test_store_path_that_is_a_folder(tmp_path):
 
 def test_unwritable_store_fails_before_any_work_and_keeps_rows(tmp_path):
     good = tmp_path / "s.sqlite"
-    study = make_study(good, learners=("knn",))
-    study.run(progress=False)
+    campaign = make_campaign(good, learners=("knn",))
+    campaign.run(progress=False)
     before = len(ResultStore(good))
     (tmp_path / "blocker").write_text("a file, so no folder can be made here")
     with pytest.raises(StoreError, match="cannot write the result store"):
-        make_study(tmp_path / "blocker" / "s.sqlite", learners=("knn",))
+        make_campaign(tmp_path / "blocker" / "s.sqlite", learners=("knn",))
     assert len(ResultStore(good)) == before == 6
 
 
@@ -122,12 +122,12 @@ def test_resume_after_sigkill_matches_uninterrupted_run(tmp_path):
         if proc.poll() is None:
             proc.kill()
     partial = ResultStore(killed).rows()
-    total = len(make_study(tmp_path / "probe.sqlite").cells())
+    total = len(make_campaign(tmp_path / "probe.sqlite").cells())
     assert 1 <= len(partial) < total
 
-    resumed = make_study(killed).run(progress=False)
+    resumed = make_campaign(killed).run(progress=False)
     assert resumed.summary["skipped"] == len(partial)
-    clean = make_study(tmp_path / "clean.sqlite").run(progress=False)
+    clean = make_campaign(tmp_path / "clean.sqlite").run(progress=False)
     a = resumed.rows.set_index("key").sort_index()
     b = clean.rows.set_index("key").sort_index()
     assert len(a) == len(b) == total and a.index.is_unique
@@ -143,7 +143,7 @@ def test_two_processes_writing_one_store(tmp_path):
         out, err = p.communicate(timeout=180)
         assert p.returncode == 0, err.decode()
     df = ResultStore(store).rows()
-    cells = make_study(tmp_path / "probe.sqlite", learners=("knn", "kernel_ridge")).cells()
+    cells = make_campaign(tmp_path / "probe.sqlite", learners=("knn", "kernel_ridge")).cells()
     assert len(df) == len(cells) and df["key"].is_unique
     assert set(df["key"]) == {c.key for c in cells}
     assert (df["status"] == "ok").all()
@@ -166,14 +166,71 @@ def test_concurrent_puts_from_threads_lose_nothing(tmp_path):
     assert store.finished_keys() == {f"k{i}" for i in range(60)}
 
 
-def test_study_metadata_rebuilds_result(tmp_path):
-    from manireg.curves.study import Study
+def test_campaign_metadata_rebuilds_result(tmp_path):
+    from manireg.curves.campaign import Campaign
 
     path = tmp_path / "s.sqlite"
-    res = make_study(path, learners=("knn",)).run(progress=False)
-    back = Study.from_store(path)
-    assert back.label == "resume" and back.d == res.d and back.s == res.s and back.D == 8
+    res = make_campaign(path, learners=("knn",)).run(progress=False)
+    back = Campaign.from_store(path)
+    assert back.name == "resume" and back.dimension == res.dimension and back.smoothness == res.smoothness and back.ambient_dim == 8
     assert back.noise_variance == pytest.approx(0.01)
     assert sorted(back.rows["key"]) == sorted(res.rows["key"])
-    with pytest.raises(ValueError, match="holds no study 'other'"):
-        Study.from_store(path, study="other")
+    with pytest.raises(ValueError, match="holds no campaign 'other'"):
+        Campaign.from_store(path, campaign="other")
+
+
+# ------------------------------------------------------------------ stores written before the campaign vocabulary
+FIXTURE = os.path.join(os.path.dirname(__file__), "data", "store_before_campaigns.sqlite")
+
+
+def _legacy_campaign(store):
+    # the settings the fixture was written with (tests/data/store_before_campaigns.sqlite, 12 ok rows)
+    from manireg.curves import Campaign, LearnerSpec
+
+    return Campaign(generator={"manifold": "sphere", "n": 400, "d": 2, "ambient_dim": 5, "smoothness": 1.0,
+                               "noise_std": 0.1, "seed": 3},
+                    sizes=[40, 80, 160], repeats=2, learners=[LearnerSpec("knn"), LearnerSpec("net", params={"max_steps": 60})],
+                    seed=1, name="legacy", store=store)
+
+
+def test_old_store_migrates_in_place_with_every_row(tmp_path):
+    import shutil
+    import sqlite3
+
+    from manireg.curves.store import SCHEMA_VERSION
+
+    path = str(tmp_path / "old.sqlite")
+    shutil.copy(FIXTURE, path)
+    before = sqlite3.connect(path).execute("SELECT COUNT(*), SUM(test_mse) FROM cells").fetchone()
+    store = ResultStore(path)
+    assert os.path.exists(path + ".before-migration")
+    assert store.campaigns() == ["legacy"]
+    meta = store.campaign_meta("legacy")
+    assert meta["dimension"] == 2.0 and meta["smoothness"] == 1.0 and meta["ambient_dim"] == 5
+    assert meta["spec"]["name"] == "legacy" and meta["spec"]["validation_fraction"] == 0.2
+    rows = store.rows("legacy")
+    assert len(rows) == before[0] == 12 and rows["test_mse"].sum() == pytest.approx(before[1])
+    con = sqlite3.connect(path)
+    assert con.execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION
+    # opening again is a no-op
+    assert len(ResultStore(path).rows()) == 12
+    # the same settings find every migrated cell finished: nothing is trained again
+    campaign = _legacy_campaign(path)
+    assert store.finished_keys(include_failed=False) == {c.key for c in campaign.cells()}
+    result = campaign.run(progress=False)
+    assert result.summary["ran"] == 0 and len(result.rows) == 12
+
+
+def test_store_from_a_newer_version_is_refused_unchanged(tmp_path):
+    import sqlite3
+
+    path = str(tmp_path / "new.sqlite")
+    con = sqlite3.connect(path)
+    con.execute("CREATE TABLE cells (key TEXT PRIMARY KEY)")
+    con.execute("PRAGMA user_version = 99")
+    con.commit()
+    con.close()
+    size = os.path.getsize(path)
+    with pytest.raises(StoreError, match="newer manireg"):
+        ResultStore(path)
+    assert os.path.getsize(path) == size

@@ -1,10 +1,10 @@
-"""Study definition: cells, keys, nested splits, and clear errors for bad input."""
+"""Campaign definition: cells, keys, nested splits, and clear errors for bad input."""
 
 import numpy as np
 import pytest
 
 from manireg.curves.learners import LearnerSpec
-from manireg.curves.sweep import StudySpec, default_sizes, expand, prepare
+from manireg.curves.sweep import CampaignSpec, default_sizes, expand, prepare
 
 TINY = {"max_steps": 30, "min_steps": 10, "patience_steps": 20, "eval_every": 10}
 
@@ -21,8 +21,8 @@ def _spec(data, **kw):
     kw.setdefault("sizes", [20, 40, 80])
     kw.setdefault("repeats", 2)
     kw.setdefault("learners", [LearnerSpec("net", params=TINY), "knn"])
-    kw.setdefault("d", 2.0)
-    return StudySpec(X=X, y=y, **kw)
+    kw.setdefault("dimension", 2.0)
+    return CampaignSpec(X=X, y=y, **kw)
 
 
 def test_cells_and_keys(data):
@@ -63,7 +63,7 @@ def test_changed_setting_changes_every_key(data, change):
     change = dict(change)
     if change.pop("data", False):
         X, y = data
-        new = expand(StudySpec(X=X, y=y + 1e-9, sizes=[20, 40, 80], repeats=2, d=2.0,
+        new = expand(CampaignSpec(X=X, y=y + 1e-9, sizes=[20, 40, 80], repeats=2, dimension=2.0,
                                learners=[LearnerSpec("net", params=TINY)]))
     else:
         new = expand(_spec(data, **change))
@@ -93,7 +93,7 @@ def test_single_size(data):
 
 
 def test_repeats_below_one(data):
-    with pytest.raises(ValueError, match="'repeats' parameter of StudySpec must be an int >= 1; got 0"):
+    with pytest.raises(ValueError, match="'repeats' parameter of CampaignSpec must be an int >= 1; got 0"):
         prepare(_spec(data, repeats=0))
 
 
@@ -114,16 +114,16 @@ def test_duplicate_learner_names(data):
 
 def test_no_data():
     with pytest.raises(ValueError, match="no data; pass X and y"):
-        prepare(StudySpec())
+        prepare(CampaignSpec())
 
 
 def test_generator_config():
-    d = prepare(StudySpec(generator={"manifold": "sphere", "n": 200, "d": 2, "ambient_dim": 6,
+    d = prepare(CampaignSpec(generator={"manifold": "sphere", "n": 200, "d": 2, "ambient_dim": 6,
                                      "smoothness": 1.0, "noise_std": 0.1, "seed": 0},
                           sizes=[20, 40], repeats=1, learners=["knn"]))
-    assert d.d == 2.0 and d.D == 6 and d.f_clean is not None and d.noise_variance == pytest.approx(0.01)
+    assert d.dimension == 2.0 and d.ambient_dim == 6 and d.f_clean is not None and d.noise_variance == pytest.approx(0.01)
 
 
 def test_dimension_estimated_when_not_given(data):
-    d = prepare(_spec(data, d=None, learners=["knn"]))
-    assert d.d_source == "estimated" and 1.0 <= d.d <= 5.0
+    d = prepare(_spec(data, dimension=None, learners=["knn"]))
+    assert d.dimension_source == "estimated" and 1.0 <= d.dimension <= 5.0

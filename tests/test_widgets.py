@@ -6,11 +6,11 @@ import pytest
 pytest.importorskip("ipywidgets")
 
 from manireg.curves import execution, fitting  # noqa: E402
-from manireg.curves.study import Study  # noqa: E402
+from manireg.curves.campaign import Campaign  # noqa: E402
 from manireg.data import make_regression, sphere  # noqa: E402
-from manireg.widgets import CurvePanel, GeometryPanel, SizingPanel, StudyPanel  # noqa: E402
+from manireg.widgets import CurvePanel, GeometryPanel, SizingPanel, WorkbenchPanel  # noqa: E402
 
-# tiny studies have 2 repeats on purpose (speed); the fit's warning about that is expected here
+# tiny campaigns have 2 repeats on purpose (speed); the fit's warning about that is expected here
 pytestmark = pytest.mark.filterwarnings("ignore:fit_exponent.*repeats:UserWarning")
 
 TINY_NET = {"kind": "net", "params": {"max_steps": 120, "min_steps": 40, "patience_steps": 80, "eval_every": 20}}
@@ -34,11 +34,11 @@ def sample():
 
 
 @pytest.fixture(scope="module")
-def finished_study(sample, tmp_path_factory):
-    study = Study.from_regression_sample(sample, sizes=[24, 48, 96, 192], repeats=2, learners=[TINY_NET, "knn"],
-                                         store=str(tmp_path_factory.mktemp("study") / "s.sqlite"))
-    study.run(progress=False)
-    return study
+def finished_campaign(sample, tmp_path_factory):
+    campaign = Campaign.from_regression_sample(sample, sizes=[24, 48, 96, 192], repeats=2, learners=[TINY_NET, "knn"],
+                                         store=str(tmp_path_factory.mktemp("campaign") / "s.sqlite"))
+    campaign.run(progress=False)
+    return campaign
 
 
 # ------------------------------------------------------------------------------------------------ sizing
@@ -157,11 +157,11 @@ def test_geometry_panel_bad_input_is_shown_not_raised(sample):
 
 # ------------------------------------------------------------------------------------------------ curves
 def test_curve_panel_runs_in_background_and_matches_fit_exponent(sample, tmp_path, monkeypatch):
-    study = Study.from_regression_sample(sample, sizes=[24, 48, 96, 192], repeats=2, learners=[TINY_NET, "knn"],
+    campaign = Campaign.from_regression_sample(sample, sizes=[24, 48, 96, 192], repeats=2, learners=[TINY_NET, "knn"],
                                          store=str(tmp_path / "s.sqlite"))
-    total = len(study.cells())
+    total = len(campaign.cells())
     real_run_unit = execution.run_unit
-    panel = CurvePanel(study, n_boot=20, seed=0, target_error=0.02)
+    panel = CurvePanel(campaign, n_boot=20, seed=0, target_error=0.02)
     assert panel.progress.value == 0 and panel.progress.max == total
     ran = []
 
@@ -185,7 +185,7 @@ def test_curve_panel_runs_in_background_and_matches_fit_exponent(sample, tmp_pat
     assert sum(ran) == total  # every cell ran exactly once
     assert panel.error is None, panel.error
 
-    rows = study.result().rows
+    rows = campaign.result().rows
     panel.learner.value = "net"
     settings = panel.fit_settings()
     ref = fitting.fit_exponent(rows, "net", **settings)
@@ -198,10 +198,10 @@ def test_curve_panel_runs_in_background_and_matches_fit_exponent(sample, tmp_pat
     assert panel.curves_image.value[:4] == b"\x89PNG"
 
 
-def test_curve_panel_fit_controls_call_fit_exponent(finished_study, monkeypatch):
+def test_curve_panel_fit_controls_call_fit_exponent(finished_campaign, monkeypatch):
     spy = Spy(fitting.fit_exponent)
     monkeypatch.setattr(fitting, "fit_exponent", spy)
-    panel = CurvePanel(finished_study.result(), n_boot=20, target_error=0.05)
+    panel = CurvePanel(finished_campaign.result(), n_boot=20, target_error=0.05)
     assert panel.learner.value == "net"
     html_before = panel.exponent_html.value
     exp_before = panel.fit.exponent
@@ -224,7 +224,7 @@ def test_curve_panel_fit_controls_call_fit_exponent(finished_study, monkeypatch)
 
     panel.learner.value = "knn"
     assert panel.fit.learner == "knn"
-    expected = fitting.fit_exponent.func(finished_study.result().rows, "knn", **panel.fit_settings())
+    expected = fitting.fit_exponent.func(finished_campaign.result().rows, "knn", **panel.fit_settings())
     assert panel.fit.exponent == expected.exponent
 
     # implied d follows the s control
@@ -234,12 +234,12 @@ def test_curve_panel_fit_controls_call_fit_exponent(finished_study, monkeypatch)
     assert panel.fit.predicted_exponent[0] == pytest.approx(4.0 / 6.0)
 
 
-def test_curve_panel_planner(finished_study, monkeypatch):
+def test_curve_panel_planner(finished_campaign, monkeypatch):
     import manireg.curves.planning as planning
 
     spy = Spy(planning.plan_samples)
     monkeypatch.setattr(planning, "plan_samples", spy)
-    panel = CurvePanel(finished_study.result(), n_boot=20)
+    panel = CurvePanel(finished_campaign.result(), n_boot=20)
     assert panel.plan is None
     panel.allow_unverified.value = True
     panel.target_error.value = 0.05
@@ -253,33 +253,33 @@ def test_curve_panel_planner(finished_study, monkeypatch):
     if panel.fit.verdict != "measured":
         assert panel.plan is None and "refusing" in panel.plan_html.value
     res = panel.results()
-    assert res.cells_done == len(finished_study.cells())
+    assert res.cells_done == len(finished_campaign.cells())
     assert set(res.to_dict()) >= {"learner", "fit", "plan", "fit_settings"}
 
 
-def test_curve_panel_from_rows_cannot_run(finished_study):
-    panel = CurvePanel(finished_study.result().rows, d=2.0, s=1.0, input_dim=5, n_boot=20)
+def test_curve_panel_from_rows_cannot_run(finished_campaign):
+    panel = CurvePanel(finished_campaign.result().rows, d=2.0, s=1.0, input_dim=5, n_boot=20)
     assert panel.start_button.disabled
     panel.start()
-    assert panel.error is not None and "Study" in panel.error
-    with pytest.raises(ValueError, match="Study, a StudyResult or a DataFrame"):
+    assert panel.error is not None and "Campaign" in panel.error
+    with pytest.raises(ValueError, match="Campaign, a CampaignResult or a DataFrame"):
         CurvePanel([1, 2, 3])
 
 
-# ------------------------------------------------------------------------------------------------- study
-def test_study_panel_passes_d_and_s(sample, tmp_path):
-    panel = StudyPanel(sample.X, sample.y, s=1.0, sizes=[24, 48, 96], repeats=2, learners=[TINY_NET],
+# ------------------------------------------------------------------------------------------------- campaign
+def test_campaign_panel_passes_d_and_s(sample, tmp_path):
+    panel = WorkbenchPanel(sample.X, sample.y, s=1.0, sizes=[24, 48, 96], repeats=2, learners=[TINY_NET],
                        store=str(tmp_path / "s.sqlite"),
                        geometry_kwargs={"estimators": ("mle",), "scales": (5, 10), "n_boot": 0})
     assert panel.sizing.d.value == pytest.approx(round(panel.geometry.consensus, 2))
     panel.geometry.k_range.value = (5, 8)
     assert panel.sizing.d.value == pytest.approx(round(panel.geometry.consensus, 2))
     panel.sizing.s.value = 1.5
-    study = panel.create_study()
+    campaign = panel.create_campaign()
     assert panel.error is None, panel.error
-    assert study.data.s == 1.5 and study.data.d == pytest.approx(panel.sizing.d.value)
+    assert campaign.data.smoothness == 1.5 and campaign.data.dimension == pytest.approx(panel.sizing.d.value)
     assert panel.curves is not None and panel.curves_box.children == (panel.curves,)
     panel.sizing.s.value = 2.0
     assert panel.curves.s.value == 2.0
     res = panel.results()
-    assert res.sizing.s == 2.0 and res.curves.cells_total == len(study.cells())
+    assert res.sizing.s == 2.0 and res.curves.cells_total == len(campaign.cells())

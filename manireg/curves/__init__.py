@@ -1,4 +1,4 @@
-"""Learning curves: study plans, the result store, execution, baselines, exponent fits and the planner.
+"""Learning curves: campaign plans, the result store, execution, baselines, exponent fits and the planner.
 
 Names are imported on first use (see :mod:`manireg._lazy`).
 """
@@ -10,13 +10,14 @@ _EXPORTS = {
     ".execution": ["EXECUTORS", "run_cells"],
     ".fitting": ["ExponentFit", "ExponentTable", "PowerLawFit", "fit_all", "fit_exponent", "fit_power_law",
                  "local_slopes"],
+    ".floors": ["DEFAULT_FLOOR", "FLOOR_CHOICES", "describe_floor", "parse_floor", "resolve_floor"],
     ".learners": ["LEARNER_KINDS", "LearnerSpec", "register_learner"],
     ".noise": ["NoiseEstimate", "noise_variance"],
     ".planning": ["CapacityReadout", "ExtrapolationCheck", "SamplePlan", "capacity_readout", "extrapolation_check",
                   "plan_samples"],
     ".store": ["ResultStore", "StoreError"],
-    ".study": ["Study", "StudyResult"],
-    ".sweep": ["Cell", "StudySpec", "default_sizes", "expand"],
+    ".campaign": ["Campaign", "CampaignResult"],
+    ".sweep": ["Cell", "CampaignSpec", "default_sizes", "expand"],
 }
 
 __getattr__, __dir__, __all__ = lazy_namespace(__name__, _EXPORTS)

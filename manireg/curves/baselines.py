@@ -1,8 +1,8 @@
 """Reference learners with known adaptive rates: k-nearest-neighbour regression and Gaussian kernel ridge.
 
-A study shows the network's fitted exponent beside these, so a slope can be read against learners whose
+A campaign shows the network's fitted exponent beside these, so a slope can be read against learners whose
 rates on a d-dimensional manifold are established. Both are plain functions of the training data; the
-study-level wrappers live in :mod:`manireg.curves.learners`.
+campaign-level wrappers live in :mod:`manireg.curves.learners`.
 
 Rules (``a = 2s / (2s + d)``, the minimax exponent of squared error):
 

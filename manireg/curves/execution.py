@@ -1,4 +1,4 @@
-"""Run the cells of a study in-process, in local worker processes, or on a dask.distributed cluster.
+"""Run the cells of a campaign in-process, in local worker processes, or on a dask.distributed cluster.
 
 The pending cells (those not yet in the store) are grouped into work units: all repeats of one net learner
 at one n form one unit (they share an architecture and go to one ``BatchedTrainer.fit`` call); every other
@@ -59,7 +59,7 @@ def make_units(cells, data=None, n_workers=1) -> list:
     With ``n_workers > 1`` (and ``data``) the units are also balanced: while the costliest unit (by the
     learners' :meth:`~manireg.curves.learners.Learner.cell_cost`) costs more than ``1 / n_workers`` of
     the whole and holds more than one cell, it is split into two halves. Otherwise that one unit would
-    be the critical path: in the standard benchmark study the five replicas at the largest n are over
+    be the critical path: in the standard benchmark campaign the five replicas at the largest n are over
     half of all the work. A replica's numbers do not depend on which replicas share its stack (see
     :class:`manireg.nets.training.BatchedTrainer`), so splitting changes timing, never rows. The
     balanced units come costliest first (longest-processing-time order): the biggest unit starts at once
@@ -68,7 +68,7 @@ def make_units(cells, data=None, n_workers=1) -> list:
     Parameters
     ----------
     cells : list of Cell
-    data : StudyData, optional
+    data : CampaignData, optional
         Needed for the cost estimate when ``n_workers > 1``.
     n_workers : int, default=1
 
@@ -105,7 +105,7 @@ def make_units(cells, data=None, n_workers=1) -> list:
 
 
 def _base_row(cell):
-    return {"key": cell.key, "study": cell.study, "learner": cell.learner.name, "n": cell.n,
+    return {"key": cell.key, "campaign": cell.campaign, "learner": cell.learner.name, "n": cell.n,
             "repeat": cell.repeat, "seed": cell.seed, "config_json": canonical_json(cell.config)}
 
 
@@ -118,7 +118,7 @@ def run_unit(cells, data, torch_threads: int = 1) -> list:
     ----------
     cells : list of Cell
         Cells of one learner (and, for batchable learners, one n).
-    data : StudyData
+    data : CampaignData
     torch_threads : int, default=1
         torch intra-op threads while the unit runs (restored afterwards).
     """
@@ -157,7 +157,7 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
     ----------
     cells : list of Cell
         From :func:`manireg.curves.sweep.expand`.
-    data : StudyData
+    data : CampaignData
         From :func:`manireg.curves.sweep.prepare` (the same the cells were expanded from).
     store : ResultStore
     executor : {"inprocess", "processes", "dask"}, default="inprocess"
@@ -174,7 +174,7 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
         torch threads inside each unit; keep it fixed to keep rows identical across executors.
     stop : object with ``is_set()`` (e.g. ``threading.Event``), optional
         Checked before each unit is started and after each unit finishes: once set, no further unit starts
-        (units in flight finish and are stored). This is how a notebook panel pauses a study.
+        (units in flight finish and are stored). This is how a notebook panel pauses a campaign.
     on_unit : callable(rows), optional
         Called in the calling process after each finished unit's rows are stored (live plots).
 
@@ -203,7 +203,7 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
     summary = RunSummary(total=total, skipped=total - len(pending), ran=0, failed=0, executor=executor)
     if not pending:
         return summary
-    bar = _progress(total, total - len(pending), progress, getattr(data, "label", "study"))
+    bar = _progress(total, total - len(pending), progress, getattr(data, "label", "campaign"))
 
     def stopped():
         return stop is not None and stop.is_set()

@@ -1,6 +1,6 @@
 """Power-law fits to learning curves, with bootstrap intervals over repeats and a verdict.
 
-A learning curve is a table of study rows (one per learner, sample size ``n`` and repeat). This module fits
+A learning curve is a table of campaign rows (one per learner, sample size ``n`` and repeat). This module fits
 
 * ``err = a n^(-b)`` by least squares on ``log err`` against ``log n`` (model ``"loglog"``);
 * ``err = a n^(-b) + c`` with a known floor ``c`` by least squares on ``log(err - c)`` (model ``"excess"``);
@@ -286,7 +286,7 @@ def local_slopes(n, err, floor=0.0):
 
 
 # ----------------------------------------------------------------------------------------------------
-# Study-level fits with bootstrap and verdict
+# Campaign-level fits with bootstrap and verdict
 # ----------------------------------------------------------------------------------------------------
 @dataclass
 class SubrangeFit(ResultMixin):
@@ -462,22 +462,22 @@ class ExponentTable(ResultMixin):
 
 
 def _check_table(rows, metric, owner):
-    """Validate a study table: a non-empty DataFrame with the required columns; keep status 'ok' rows."""
+    """Validate a campaign table: a non-empty DataFrame with the required columns; keep status 'ok' rows."""
     import pandas as pd
 
     if not isinstance(rows, pd.DataFrame):
         try:
             rows = pd.DataFrame(rows)
         except Exception:  # noqa: BLE001 - any failure means the input is not tabular
-            raise ValueError(f"{owner}: rows must be a pandas DataFrame of study rows; got {type(rows).__name__}.")
+            raise ValueError(f"{owner}: rows must be a pandas DataFrame of campaign rows; got {type(rows).__name__}.")
     if len(rows) == 0:
-        raise ValueError(f"{owner}: rows is empty; run or load a study before fitting (no rows to fit).")
+        raise ValueError(f"{owner}: rows is empty; run or load a campaign before fitting (no rows to fit).")
     need = [c for c in REQUIRED_COLUMNS if c not in rows.columns]
     if metric not in rows.columns and metric not in need:
         need.append(metric)
     if need:
         raise ValueError(
-            f"{owner}: rows is missing column(s) {need}; a study table needs at least "
+            f"{owner}: rows is missing column(s) {need}; a campaign table needs at least "
             f"{list(REQUIRED_COLUMNS)} (got {list(rows.columns)})."
         )
     if "status" in rows.columns:
@@ -488,7 +488,7 @@ def _check_table(rows, metric, owner):
 
 
 def _select_rows(rows, learner, metric, n_range, owner):
-    """Validate the study table and return the rows of one learner (status ok, within n_range)."""
+    """Validate the campaign table and return the rows of one learner (status ok, within n_range)."""
     import pandas as pd
 
     rows = _check_table(rows, metric, owner)
@@ -689,7 +689,7 @@ def fit_exponent(
     Parameters
     ----------
     rows : pandas.DataFrame
-        Study rows with at least ``learner``, ``n``, ``repeat`` and the ``metric`` column; optional
+        Campaign rows with at least ``learner``, ``n``, ``repeat`` and the ``metric`` column; optional
         ``status`` (only ``"ok"`` rows are used), ``stop_reason`` and ``late_best`` (to flag
         optimisation-limited cells).
     learner : str, optional
@@ -953,7 +953,7 @@ def fit_all(rows, **kwargs) -> ExponentTable:
     Parameters
     ----------
     rows : pandas.DataFrame
-        Study rows (see :func:`fit_exponent`).
+        Campaign rows (see :func:`fit_exponent`).
     **kwargs
         Passed to :func:`fit_exponent` (``floor``, ``n_range``, ``n_boot``, ``seed``, ...).
 

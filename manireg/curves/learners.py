@@ -1,4 +1,4 @@
-"""The learner registry of a study: what a learner is, how it is named and how it turns cells into rows.
+"""The learner registry of a campaign: what a learner is, how it is named and how it turns cells into rows.
 
 A learner is described by a :class:`LearnerSpec` (kind, name, parameters). Its kind picks a class from the
 registry (:data:`LEARNER_KINDS`; extend it with :func:`register_learner`):
@@ -7,7 +7,7 @@ registry (:data:`LEARNER_KINDS`; extend it with :func:`register_learner`):
     A ReLU network sized by :func:`manireg.theory.size_network` (with ``width_multiplier``) and trained by
     :class:`manireg.nets.training.BatchedTrainer`. Cells of one net learner and one n share one
     architecture, so all their repeats are trained in ONE ``BatchedTrainer.fit`` call. Width multipliers
-    are distinct learners (default names ``"net"``, ``"net-w0.5"``, ``"net-w2"``), so one study holds a
+    are distinct learners (default names ``"net"``, ``"net-w0.5"``, ``"net-w2"``), so one campaign holds a
     capacity sweep.
 ``"knn"``
     k-nearest-neighbour regression with ``k = ceil(c * n^(2s/(2s+d)))``
@@ -18,7 +18,7 @@ registry (:data:`LEARNER_KINDS`; extend it with :func:`register_learner`):
 
 Every learner fits on the same points of a cell: the first ``n_fit = n - n_val`` of the cell's ``n``
 (``n_val = round(val_fraction * n)``), reports its validation MSE on the other ``n_val`` and its test MSE on
-the study's fixed test set. Nets use the validation part for early stopping; the baselines only report it.
+the campaign's fixed test set. Nets use the validation part for early stopping; the baselines only report it.
 
 References
 ----------
@@ -45,7 +45,7 @@ __all__ = ["LearnerSpec", "Learner", "NetLearner", "KNNLearner", "KernelRidgeLea
 
 @dataclass
 class LearnerSpec:
-    """A learner of a study: its kind, its name (the ``learner`` column of the rows) and its parameters.
+    """A learner of a campaign: its kind, its name (the ``learner`` column of the rows) and its parameters.
 
     Parameters
     ----------
@@ -151,7 +151,7 @@ class Learner:
         """Rough floating-point operations of one cell of size ``n``; only used to balance work units
         over workers, so a factor of two does not matter. Default: a distance computation between the
         ``n`` training and the ``n + n_test`` evaluation points (what kNN does, brute force)."""
-        return 2.0 * data.D * n * (n + len(data.y_test))
+        return 2.0 * data.ambient_dim * n * (n + len(data.y_test))
 
     def run(self, cells, data) -> list:  # pragma: no cover - abstract
         raise NotImplementedError
@@ -217,7 +217,7 @@ class NetLearner(Learner):
         from manireg.theory.sizing import size_network
 
         train, constants = self._configs()
-        return size_network(n, data.d, data.s, data.D, constants=constants,
+        return size_network(n, data.dimension, data.smoothness, data.ambient_dim, constants=constants,
                             width_multiplier=float(self.spec.params.get("width_multiplier", 1.0)),
                             output_bound=self._output_bound(data))
 
@@ -226,7 +226,7 @@ class NetLearner(Learner):
         and the final evaluation of one replica, in flops."""
         train, _ = self._configs()
         arch = self.architecture(n, data)
-        n_val = int(round(data.val_fraction * n))
+        n_val = int(round(data.validation_fraction * n))
         n_fit = n - n_val
         rows = n_fit if n_fit <= train.full_batch_threshold else min(train.batch_size, n_fit)
         evals = train.max_steps // train.eval_every + 1
@@ -306,7 +306,7 @@ class KNNLearner(Learner):
         k = self.spec.params.get("k")
         if k is not None:
             return int(min(k, n_fit))
-        return baselines.knn_k(n_fit, data.d, data.s, c=float(self.spec.params.get("c", baselines.DEFAULT_KNN_C)))
+        return baselines.knn_k(n_fit, data.dimension, data.smoothness, c=float(self.spec.params.get("c", baselines.DEFAULT_KNN_C)))
 
     def run(self, cells, data) -> list:
         out = []
@@ -338,7 +338,7 @@ class KernelRidgeLearner(Learner):
     def cell_cost(self, n, data) -> float:
         """Kernel matrix and its factorisation (exact), or the Nyström factor with ``max_exact`` centres."""
         m = min(n, int(self.resolve(None)["max_exact"]))
-        return 2.0 * data.D * m * (n + len(data.y_test)) + n * m * m + m ** 3 / 3.0
+        return 2.0 * data.ambient_dim * m * (n + len(data.y_test)) + n * m * m + m ** 3 / 3.0
 
     def run(self, cells, data) -> list:
         r = self.resolve(None)
@@ -346,8 +346,8 @@ class KernelRidgeLearner(Learner):
         for c in cells:
             t0 = time.perf_counter()
             Xf, yf, Xv, yv = data.cell_split(c)
-            h = baselines.kernel_bandwidth(Xf, data.d, data.s, c=r["c_bandwidth"], seed=int(c.seed))
-            lam = baselines.kernel_ridge_penalty(len(Xf), data.d, data.s, c=r["c_ridge"])
+            h = baselines.kernel_bandwidth(Xf, data.dimension, data.smoothness, c=r["c_bandwidth"], seed=int(c.seed))
+            lam = baselines.kernel_ridge_penalty(len(Xf), data.dimension, data.smoothness, c=r["c_ridge"])
             Q = np.vstack([Xf, Xv, data.X_test])
             pred = baselines.kernel_ridge_regress(Xf, yf, Q, bandwidth=h, penalty=lam, max_exact=r["max_exact"],
                                                   seed=int(c.seed))

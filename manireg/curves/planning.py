@@ -273,7 +273,7 @@ def extrapolation_check(rows, learner=None, *, holdout=1, metric="test_mse", **f
     Parameters
     ----------
     rows : pandas.DataFrame
-        Study rows (see :func:`manireg.curves.fitting.fit_exponent`).
+        Campaign rows (see :func:`manireg.curves.fitting.fit_exponent`).
     learner : str, optional
     holdout : int, default 1
         Number of largest sizes held out.
@@ -377,7 +377,7 @@ def capacity_readout(rows, *, metric="test_mse", margin=2.0) -> CapacityReadout:
     Parameters
     ----------
     rows : pandas.DataFrame
-        Study rows with ``learner``, ``n``, ``repeat`` and ``metric``.
+        Campaign rows with ``learner``, ``n``, ``repeat`` and ``metric``.
     metric : str, default "test_mse"
     margin : float, default 2
         A difference of mean errors counts when it exceeds ``margin`` times its standard error.
@@ -396,7 +396,7 @@ def capacity_readout(rows, *, metric="test_mse", margin=2.0) -> CapacityReadout:
     owner = "capacity_readout"
     margin = check_float(margin, "margin", owner=owner, low=0.0)
     if not isinstance(rows, pd.DataFrame) or len(rows) == 0:
-        raise ValueError(f"{owner}: rows is empty or not a DataFrame; pass the study rows of a width sweep.")
+        raise ValueError(f"{owner}: rows is empty or not a DataFrame; pass the campaign rows of a width sweep.")
     missing = [c for c in ("learner", "n", "repeat", metric) if c not in rows.columns]
     if missing:
         raise ValueError(f"{owner}: rows is missing column(s) {missing}; got {list(rows.columns)}.")

@@ -1,4 +1,4 @@
-"""SQLite result store of a study: one row per cell, keyed by the cell's content hash.
+"""SQLite result store of a campaign: one row per cell, keyed by the cell's content hash.
 
 Properties the execution layer relies on:
 
@@ -10,8 +10,12 @@ Properties the execution layer relies on:
 * **Several writers**: every connection sets ``busy_timeout`` so concurrent writers wait for the lock
   instead of failing [2]_.
 * **Nothing is deleted**: the store has no delete operation.
-* **Self-describing**: a ``studies`` table keeps each study's spec, data fingerprint, d, s, D and package
-  versions, so a report can be rebuilt from the file alone.
+* **Self-describing**: a ``campaigns`` table keeps each campaign's spec, data fingerprint, dimension,
+  smoothness, ambient dimension and package versions, so a report can be rebuilt from the file alone.
+* **Versioned**: ``PRAGMA user_version`` holds the schema version. A store written before campaigns had
+  their name is migrated in place when opened (a copy of the file is kept beside it first, and every row is
+  kept, its key recomputed under the new field names so a resumed campaign finds it); a store from a newer
+  manireg is refused.
 
 References
 ----------
@@ -25,25 +29,49 @@ import datetime
 import json
 import math
 import os
+import pathlib
 import sqlite3
 
 from manireg.curves.sweep import ROW_COLUMNS
 
-__all__ = ["ResultStore", "StoreError"]
+__all__ = ["ResultStore", "StoreError", "SCHEMA_VERSION"]
 
 _TYPES = {
-    "key": "TEXT PRIMARY KEY", "study": "TEXT NOT NULL", "learner": "TEXT NOT NULL", "n": "INTEGER NOT NULL",
+    "key": "TEXT PRIMARY KEY", "campaign": "TEXT NOT NULL", "learner": "TEXT NOT NULL", "n": "INTEGER NOT NULL",
     "repeat": "INTEGER NOT NULL", "seed": "INTEGER", "train_mse": "REAL", "val_mse": "REAL", "test_mse": "REAL",
     "test_mse_clean": "REAL", "steps": "INTEGER", "best_step": "INTEGER", "stop_reason": "TEXT",
     "late_best": "INTEGER", "seconds": "REAL", "n_parameters": "INTEGER", "width": "INTEGER", "depth": "INTEGER",
     "width_multiplier": "REAL", "precision": "TEXT", "status": "TEXT NOT NULL", "error": "TEXT", "created_at": "TEXT",
     "config_json": "TEXT",
 }
-_STUDY_COLUMNS = ("study", "spec_json", "fingerprint", "d", "s", "ambient_dim", "meta_json", "created_at", "updated_at")
+#: Schema version written to ``PRAGMA user_version``; 0 is a store from before the campaign vocabulary.
+SCHEMA_VERSION = 1
 
 
 class StoreError(ValueError):
     """The store cannot be opened or written (a ``ValueError`` subclass)."""
+
+
+def _schema_version(path) -> int:
+    """``PRAGMA user_version`` of an existing SQLite file, read without writing (0 for a new or foreign file)."""
+    if not os.path.isfile(path) or os.path.getsize(path) == 0:
+        return 0
+    try:
+        con = sqlite3.connect(pathlib.Path(os.path.abspath(path)).as_uri() + "?mode=ro", uri=True)
+        try:
+            return int(con.execute("PRAGMA user_version").fetchone()[0])
+        finally:
+            con.close()
+    except sqlite3.DatabaseError:
+        return 0  # not a database: _check_writable says so
+
+
+def _has_table(path, name) -> bool:
+    con = sqlite3.connect(path)
+    try:
+        return con.execute("SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = ?", (name,)).fetchone() is not None
+    finally:
+        con.close()
 
 
 def _now():
@@ -93,7 +121,18 @@ class ResultStore:
     def __init__(self, path, *, timeout: float = 60.0):
         self.path = os.fspath(path)
         self.timeout = float(timeout)
+        version = _schema_version(self.path)
+        if version > SCHEMA_VERSION:
+            raise StoreError(
+                f"the result store at {self.path!r} was written by a newer manireg (schema {version}; this one "
+                f"reads up to {SCHEMA_VERSION}). Upgrade manireg to read it; the file was not changed."
+            )
         self._check_writable()
+        if version < SCHEMA_VERSION:
+            from manireg.curves.migrate import LEGACY_TABLE, migrate_store
+
+            if _has_table(self.path, LEGACY_TABLE):
+                migrate_store(self.path)
         with self._connect() as con:
             cols = ", ".join(f'"{c}" {_TYPES[c]}' for c in ROW_COLUMNS)
             con.execute(f"CREATE TABLE IF NOT EXISTS cells ({cols})")
@@ -103,11 +142,12 @@ class ResultStore:
             for c in ROW_COLUMNS:
                 if c not in have:
                     con.execute(f'ALTER TABLE cells ADD COLUMN "{c}" {_TYPES[c].replace(" NOT NULL", "")}')
-            con.execute("CREATE INDEX IF NOT EXISTS cells_study ON cells(study)")
+            con.execute("CREATE INDEX IF NOT EXISTS cells_campaign ON cells(campaign)")
             con.execute(
-                "CREATE TABLE IF NOT EXISTS studies (study TEXT PRIMARY KEY, spec_json TEXT, fingerprint TEXT, "
-                "d REAL, s REAL, ambient_dim INTEGER, meta_json TEXT, created_at TEXT, updated_at TEXT)"
+                "CREATE TABLE IF NOT EXISTS campaigns (campaign TEXT PRIMARY KEY, spec_json TEXT, fingerprint TEXT, "
+                "dimension REAL, smoothness REAL, ambient_dim INTEGER, meta_json TEXT, created_at TEXT, updated_at TEXT)"
             )
+            con.execute(f"PRAGMA user_version = {SCHEMA_VERSION}")
 
     def __repr__(self):
         return f"ResultStore({self.path!r})"
@@ -116,7 +156,7 @@ class ResultStore:
     def _fail(self, why):
         raise StoreError(
             f"cannot write the result store at {self.path!r}: {why}. Pass a path in a folder you can write "
-            "to (e.g. store='results/study.sqlite' under your home or project folder), or fix the permissions."
+            "to (e.g. store='results/campaign.sqlite' under your home or project folder), or fix the permissions."
         ) from None
 
     def _check_writable(self):
@@ -155,16 +195,16 @@ class ResultStore:
         with self._connect() as con:
             return con.execute("SELECT 1 FROM cells WHERE key = ?", (key,)).fetchone() is not None
 
-    def finished_keys(self, *, include_failed: bool = True, study: str | None = None) -> set:
+    def finished_keys(self, *, include_failed: bool = True, campaign: str | None = None) -> set:
         """Keys of stored rows: every row, or only ``status='ok'`` rows with ``include_failed=False``
         (what a run with ``retry_failed=True`` skips)."""
         sql = "SELECT key FROM cells WHERE 1=1"
         args = []
         if not include_failed:
             sql += " AND status = 'ok'"
-        if study is not None:
-            sql += " AND study = ?"
-            args.append(study)
+        if campaign is not None:
+            sql += " AND campaign = ?"
+            args.append(campaign)
         with self._connect() as con:
             return {r[0] for r in con.execute(sql, args)}
 
@@ -174,7 +214,7 @@ class ResultStore:
         An ``ok`` row is inserted unless its key is already stored as ``ok``; it replaces a ``failed`` row
         of the same key (a retry). A ``failed`` row is inserted only when the key is absent.
         """
-        missing = [c for c in ("key", "study", "learner", "n", "repeat", "status") if row.get(c) is None]
+        missing = [c for c in ("key", "campaign", "learner", "n", "repeat", "status") if row.get(c) is None]
         if missing:
             raise ValueError(f"ResultStore.put: the row lacks {missing}; rows come from manireg.curves.execution.")
         if row["status"] not in ("ok", "failed"):
@@ -200,13 +240,13 @@ class ResultStore:
                 raise
             return cur.rowcount > 0
 
-    def rows(self, study: str | None = None, *, keys=None):
+    def rows(self, campaign: str | None = None, *, keys=None):
         """Stored rows as a DataFrame with the columns of :data:`manireg.curves.sweep.ROW_COLUMNS`.
 
         Parameters
         ----------
-        study : str, optional
-            Only this study's rows.
+        campaign : str, optional
+            Only this campaign's rows.
         keys : iterable of str, optional
             Only these cell keys.
         """
@@ -214,10 +254,10 @@ class ResultStore:
 
         sql = "SELECT * FROM cells"
         args = []
-        if study is not None:
-            sql += " WHERE study = ?"
-            args.append(study)
-        sql += " ORDER BY study, learner, n, repeat"
+        if campaign is not None:
+            sql += " WHERE campaign = ?"
+            args.append(campaign)
+        sql += " ORDER BY campaign, learner, n, repeat"
         with self._connect() as con:
             df = pd.read_sql_query(sql, con.raw, params=args)
         if keys is not None:
@@ -232,39 +272,39 @@ class ResultStore:
         with self._connect() as con:
             return int(con.execute("SELECT COUNT(*) FROM cells").fetchone()[0])
 
-    # ------------------------------------------------------------------ studies
-    def put_study(self, meta: dict) -> None:
-        """Record (or refresh) a study's metadata: spec, fingerprint, d, s, D, versions, ..."""
+    # ------------------------------------------------------------------ campaigns
+    def put_campaign(self, meta: dict) -> None:
+        """Record (or refresh) a campaign's metadata: spec, fingerprint, dimension, smoothness, versions, ..."""
         from manireg._results import to_jsonable
 
         now = _now()
-        vals = (meta["study"], json.dumps(to_jsonable(meta.get("spec")), sort_keys=True), meta.get("fingerprint"),
-                _clean(meta.get("d")), _clean(meta.get("s")), _clean(meta.get("D")),
+        vals = (meta["campaign"], json.dumps(to_jsonable(meta.get("spec")), sort_keys=True), meta.get("fingerprint"),
+                _clean(meta.get("dimension")), _clean(meta.get("smoothness")), _clean(meta.get("ambient_dim")),
                 json.dumps(to_jsonable(meta), sort_keys=True), now, now)
         with self._connect() as con:
             con.execute("BEGIN IMMEDIATE")
             try:
                 con.execute(
-                    "INSERT INTO studies VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?) ON CONFLICT(study) DO UPDATE SET "
-                    "spec_json = excluded.spec_json, fingerprint = excluded.fingerprint, d = excluded.d, "
-                    "s = excluded.s, ambient_dim = excluded.ambient_dim, meta_json = excluded.meta_json, "
+                    "INSERT INTO campaigns VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?) ON CONFLICT(campaign) DO UPDATE SET "
+                    "spec_json = excluded.spec_json, fingerprint = excluded.fingerprint, dimension = excluded.dimension, "
+                    "smoothness = excluded.smoothness, ambient_dim = excluded.ambient_dim, meta_json = excluded.meta_json, "
                     "updated_at = excluded.updated_at", vals)
                 con.execute("COMMIT")
             except BaseException:
                 con.execute("ROLLBACK")
                 raise
 
-    def studies(self) -> list:
-        """Labels of the studies recorded in this store."""
+    def campaigns(self) -> list:
+        """Names of the campaigns recorded in this store."""
         with self._connect() as con:
-            return [r[0] for r in con.execute("SELECT study FROM studies ORDER BY study")]
+            return [r[0] for r in con.execute("SELECT campaign FROM campaigns ORDER BY campaign")]
 
-    def study_meta(self, study: str) -> dict:
-        """Metadata of one study (as given to :meth:`put_study`)."""
+    def campaign_meta(self, campaign: str) -> dict:
+        """Metadata of one campaign (as given to :meth:`put_campaign`)."""
         with self._connect() as con:
-            r = con.execute("SELECT meta_json FROM studies WHERE study = ?", (study,)).fetchone()
+            r = con.execute("SELECT meta_json FROM campaigns WHERE campaign = ?", (campaign,)).fetchone()
         if r is None:
-            raise KeyError(f"the store {self.path!r} holds no study {study!r}; it holds {self.studies()}.")
+            raise KeyError(f"the store {self.path!r} holds no campaign {campaign!r}; it holds {self.campaigns()}.")
         return json.loads(r[0])
 
 

@@ -1,6 +1,6 @@
-"""A study as a plan of cells: which learner, at which training size, in which repeat, with which seed.
+"""A campaign as a plan of cells: which learner, at which training size, in which repeat, with which seed.
 
-Design of the splits (all seeded from the study ``seed``):
+Design of the splits (all seeded from the campaign ``seed``):
 
 * **Test set, fixed.** One permutation of all rows (seed ``(seed, 0)``) puts ``test_size`` rows aside; every
   cell of every learner is scored on the same test rows.
@@ -8,11 +8,11 @@ Design of the splits (all seeded from the study ``seed``):
   and one permutation of the remaining pool; the cell of size ``n`` takes its first ``n`` rows. So within a
   repeat the size-256 set is contained in the size-512 set, and all learners of a repeat see the same rows.
   Differences between sizes are then differences in n, not in which points were drawn.
-* **Validation inside n.** Of a cell's ``n`` rows the last ``n_val = round(val_fraction * n)`` are the
+* **Validation inside n.** Of a cell's ``n`` rows the last ``n_val = round(validation_fraction * n)`` are the
   validation part (early stopping for nets, reported for every learner); the first ``n - n_val`` are fitted.
 
 Each cell has a ``key``: the SHA-256 of the canonical JSON (sorted keys) of its full configuration, i.e. the
-study label, learner kind and name, the learner's resolved parameters (the train config and sizing constants
+campaign name, learner kind and name, the learner's resolved parameters (the train config and sizing constants
 with all defaults filled in), n, repeat, seed, the split settings, d, s, and the fingerprint of the data
 (X, y and the noise-free target). Change any of these and the key changes, so a store never hands back a
 row computed under another setting.
@@ -35,7 +35,7 @@ import numpy as np
 from manireg._validation import check_float, check_int, check_points, check_target
 from manireg.curves.learners import LearnerSpec, make_learner
 
-__all__ = ["StudySpec", "StudyData", "Cell", "expand", "prepare", "default_sizes", "canonical_json",
+__all__ = ["CampaignSpec", "CampaignData", "Cell", "expand", "prepare", "default_sizes", "canonical_json",
            "ROW_COLUMNS", "DEFAULT_MIN_SIZE", "DEFAULT_N_SIZES", "MIN_SIZE"]
 
 #: Smallest size of the default grid (and the default grid never starts below it).
@@ -45,9 +45,9 @@ DEFAULT_N_SIZES = 6
 #: Smallest size allowed at all: the cell needs >= 2 fitted rows and >= 1 validation row.
 MIN_SIZE = 4
 
-#: Columns of a study row, in order (one row per cell).
+#: Columns of a campaign row, in order (one row per cell).
 ROW_COLUMNS = (
-    "key", "study", "learner", "n", "repeat", "seed", "train_mse", "val_mse", "test_mse", "test_mse_clean",
+    "key", "campaign", "learner", "n", "repeat", "seed", "train_mse", "val_mse", "test_mse", "test_mse_clean",
     "steps", "best_step", "stop_reason", "late_best", "seconds", "n_parameters", "width", "depth",
     "width_multiplier", "precision", "status", "error", "created_at", "config_json",
 )
@@ -81,8 +81,8 @@ def default_sizes(n_pool: int, min_size: int = DEFAULT_MIN_SIZE, n_sizes: int = 
 
 
 @dataclass
-class StudySpec:
-    """Definition of a learning-curve study.
+class CampaignSpec:
+    """Definition of a learning-curve campaign.
 
     Parameters
     ----------
@@ -110,17 +110,17 @@ class StudySpec:
         Share of rows held out as the fixed test set (ignored when ``test_size`` is given).
     test_size : int, optional
         Number of test rows.
-    val_fraction : float, default=0.2
+    validation_fraction : float, default=0.2
         Share of each cell's n used for validation.
     seed : int, default=0
         Seed of the test split, the nested permutations and every learner's randomness.
-    d : float, optional
-        Intrinsic dimension for sizing nets and the baseline rules; estimated from X when None
+    dimension : float, optional
+        Intrinsic dimension d for sizing nets and the baseline rules; estimated from X when None
         (:func:`manireg.geometry.dimension.estimate_dimension`).
-    s : float, optional
-        Smoothness; 1.0 (Lipschitz) when None and not known from the generator.
-    label : str, default="study"
-        Name of the study in the store (several studies can share one store).
+    smoothness : float, optional
+        Hölder smoothness s; 1.0 (Lipschitz) when None and not known from the generator.
+    name : str, default="campaign"
+        Name of the campaign in the store (several campaigns can share one store).
 
     References
     ----------
@@ -136,11 +136,11 @@ class StudySpec:
     learners: list | None = None
     test_fraction: float = 0.2
     test_size: int | None = None
-    val_fraction: float = 0.2
+    validation_fraction: float = 0.2
     seed: int = 0
-    d: float | None = None
-    s: float | None = None
-    label: str = "study"
+    dimension: float | None = None
+    smoothness: float | None = None
+    name: str = "campaign"
 
     def to_dict(self) -> dict:
         """JSON-ready settings (arrays left out; the data is identified by its fingerprint elsewhere)."""
@@ -148,8 +148,8 @@ class StudySpec:
         return {
             "generator": self.generator, "sizes": None if self.sizes is None else [int(v) for v in self.sizes],
             "repeats": self.repeats, "learners": learners, "test_fraction": self.test_fraction,
-            "test_size": self.test_size, "val_fraction": self.val_fraction, "seed": self.seed,
-            "d": self.d, "s": self.s, "label": self.label,
+            "test_size": self.test_size, "validation_fraction": self.validation_fraction, "seed": self.seed,
+            "dimension": self.dimension, "smoothness": self.smoothness, "name": self.name,
         }
 
 
@@ -165,7 +165,7 @@ class Cell:
     repeat: int
     seed: int
     key: str
-    study: str
+    campaign: str
     config: dict = field(repr=False)
 
     @property
@@ -175,8 +175,8 @@ class Cell:
 
 
 @dataclass
-class StudyData:
-    """Validated data of a study with its fixed test split and nested per-repeat permutations.
+class CampaignData:
+    """Validated data of a campaign with its fixed test split and nested per-repeat permutations.
 
     Built by :func:`prepare`; it is what workers receive (it pickles compactly: arrays plus a few ints).
     """
@@ -190,14 +190,14 @@ class StudyData:
     repeats: int
     learners: list
     seed: int
-    val_fraction: float
-    d: float
-    s: float
-    D: int
+    validation_fraction: float
+    dimension: float
+    smoothness: float
+    ambient_dim: int
     fingerprint: str
-    label: str
+    name: str
     noise_variance: float | None = None
-    d_source: str = "given"
+    dimension_source: str = "given"
 
     @property
     def X_test(self):
@@ -216,7 +216,7 @@ class StudyData:
         return _seed_int(self.seed, 1, repeat)
 
     def n_val(self, n: int) -> int:
-        return max(1, int(round(self.val_fraction * n)))
+        return max(1, int(round(self.validation_fraction * n)))
 
     def cell_rows(self, cell):
         """Row indices (into X) of the cell's fitted part and validation part."""
@@ -230,7 +230,7 @@ class StudyData:
         fit, val = self.cell_rows(cell)
         return self.X[fit], self.y[fit], self.X[val], self.y[val]
 
-    def metadata(self, spec: StudySpec | None = None) -> dict:
+    def metadata(self, spec: CampaignSpec | None = None) -> dict:
         import sys
 
         versions = {"python": sys.version.split()[0]}
@@ -240,9 +240,9 @@ class StudyData:
             except Exception:  # noqa: BLE001 - a missing version is not an error
                 pass
         return {
-            "study": self.label, "spec": spec.to_dict() if spec is not None else None,
-            "fingerprint": self.fingerprint, "d": self.d, "s": self.s, "D": self.D,
-            "d_source": self.d_source, "noise_variance": self.noise_variance,
+            "campaign": self.name, "spec": spec.to_dict() if spec is not None else None,
+            "fingerprint": self.fingerprint, "dimension": self.dimension, "smoothness": self.smoothness,
+            "ambient_dim": self.ambient_dim, "dimension_source": self.dimension_source, "noise_variance": self.noise_variance,
             "n_total": int(len(self.X)), "test_size": int(len(self.test_idx)), "sizes": list(self.sizes),
             "repeats": self.repeats, "learners": [l.to_dict() for l in self.learners], "versions": versions,
         }
@@ -252,7 +252,7 @@ def _generate(gen: dict):
     from manireg.data import manifolds
     from manireg.data.targets import make_regression
 
-    owner = "StudySpec.generator"
+    owner = "CampaignSpec.generator"
     if not isinstance(gen, dict) or "manifold" not in gen:
         raise ValueError(
             f"{owner} must be a dict with a 'manifold' key (one of {list(_GENERATORS)}); got {gen!r}."
@@ -268,8 +268,8 @@ def _generate(gen: dict):
     return make_regression(sample, seed=_seed_int(seed, 7), **reg)
 
 
-def prepare(spec: StudySpec) -> StudyData:
-    """Validate a :class:`StudySpec` and build its :class:`StudyData` (splits, sizes, d, s, fingerprint).
+def prepare(spec: CampaignSpec) -> CampaignData:
+    """Validate a :class:`CampaignSpec` and build its :class:`CampaignData` (splits, sizes, d, s, fingerprint).
 
     Raises
     ------
@@ -280,11 +280,11 @@ def prepare(spec: StudySpec) -> StudyData:
     """
     from manireg.geometry.neighbors import data_fingerprint
 
-    owner = "StudySpec"
-    if not isinstance(spec, StudySpec):
-        raise ValueError(f"expected a StudySpec; got {type(spec).__name__}. Build one with StudySpec(X=..., y=...).")
+    owner = "CampaignSpec"
+    if not isinstance(spec, CampaignSpec):
+        raise ValueError(f"expected a CampaignSpec; got {type(spec).__name__}. Build one with CampaignSpec(X=..., y=...).")
     noise_variance = None
-    d, s, d_source = spec.d, spec.s, "given"
+    d, s, d_source = spec.dimension, spec.smoothness, "given"
     if spec.generator is not None:
         if spec.X is not None:
             raise ValueError(f"{owner}: give either X/y or generator, not both.")
@@ -293,7 +293,7 @@ def prepare(spec: StudySpec) -> StudyData:
         noise_variance = float(sample.noise_variance)
         d = float(sample.dimension) if d is None else d
         s = float(sample.smoothness) if s is None else s
-        d_source = "generator" if spec.d is None else "given"
+        d_source = "generator" if spec.dimension is None else "given"
     else:
         if spec.X is None or spec.y is None:
             raise ValueError(f"{owner}: no data; pass X and y (arrays), or generator={{'manifold': ...}}.")
@@ -305,7 +305,7 @@ def prepare(spec: StudySpec) -> StudyData:
     N, D = X.shape
     repeats = check_int(spec.repeats, "repeats", owner=owner, low=1)
     seed = check_int(spec.seed, "seed", owner=owner, low=0)
-    val_fraction = check_float(spec.val_fraction, "val_fraction", owner=owner, low=0.0, high=0.5,
+    validation_fraction = check_float(spec.validation_fraction, "validation_fraction", owner=owner, low=0.0, high=0.5,
                                low_open=True)
     if spec.test_size is not None:
         test_size = check_int(spec.test_size, "test_size", owner=owner, low=1, high=N - MIN_SIZE)
@@ -349,42 +349,42 @@ def prepare(spec: StudySpec) -> StudyData:
 
         d = float(estimate_dimension(X).consensus)
         d_source = "estimated"
-    d = check_float(d, "d", owner=owner, low=1.0, high=float(D))
-    s = 1.0 if s is None else check_float(s, "s", owner=owner, low=0.0, low_open=True)
-    label = spec.label
-    if not isinstance(label, str) or not label:
-        raise ValueError(f"the 'label' parameter of {owner} must be a non-empty str; got {label!r}.")
+    d = check_float(d, "dimension", owner=owner, low=1.0, high=float(D))
+    s = 1.0 if s is None else check_float(s, "smoothness", owner=owner, low=0.0, low_open=True)
+    name = spec.name
+    if not isinstance(name, str) or not name:
+        raise ValueError(f"the 'name' parameter of {owner} must be a non-empty str; got {name!r}.")
     parts = [X, y] + ([] if f_clean is None else [f_clean])
     fingerprint = hashlib.sha256("".join(data_fingerprint(a) for a in parts).encode()).hexdigest()[:32]
     perm = np.random.default_rng(_seed_int(seed, 0)).permutation(N)
-    return StudyData(X=X, y=y, f_clean=f_clean, test_idx=np.sort(perm[:test_size]), pool_idx=perm[test_size:],
-                     sizes=sizes, repeats=repeats, learners=learners, seed=seed, val_fraction=val_fraction,
-                     d=d, s=s, D=D, fingerprint=fingerprint, label=label, noise_variance=noise_variance,
-                     d_source=d_source)
+    return CampaignData(X=X, y=y, f_clean=f_clean, test_idx=np.sort(perm[:test_size]), pool_idx=perm[test_size:],
+                     sizes=sizes, repeats=repeats, learners=learners, seed=seed, validation_fraction=validation_fraction,
+                     dimension=d, smoothness=s, ambient_dim=D, fingerprint=fingerprint, name=name,
+                     noise_variance=noise_variance, dimension_source=d_source)
 
 
 def expand(spec_or_data) -> list:
-    """All cells of a study, ordered by learner, n, repeat.
+    """All cells of a campaign, ordered by learner, n, repeat.
 
     Parameters
     ----------
-    spec_or_data : StudySpec or StudyData
+    spec_or_data : CampaignSpec or CampaignData
 
     Returns
     -------
     list of Cell
     """
-    data = prepare(spec_or_data) if isinstance(spec_or_data, StudySpec) else spec_or_data
+    data = prepare(spec_or_data) if isinstance(spec_or_data, CampaignSpec) else spec_or_data
     split = {"test_size": int(len(data.test_idx)), "n_total": int(len(data.X)), "split_seed": data.seed,
-             "val_fraction": data.val_fraction}
+             "validation_fraction": data.validation_fraction}
     cells = []
     for spec in data.learners:
         resolved = make_learner(spec).resolve(data)
         for n in data.sizes:
             for r in range(data.repeats):
                 seed = data.repeat_seed(r)
-                config = {"study": data.label, "learner": {"kind": spec.kind, "name": spec.name, "params": resolved},
+                config = {"campaign": data.name, "learner": {"kind": spec.kind, "name": spec.name, "params": resolved},
                           "n": int(n), "repeat": int(r), "seed": int(seed), "split": split,
-                          "d": float(data.d), "s": float(data.s), "data": data.fingerprint}
-                cells.append(Cell(spec, int(n), int(r), int(seed), _hash(config), data.label, config))
+                          "dimension": float(data.dimension), "smoothness": float(data.smoothness), "data": data.fingerprint}
+                cells.append(Cell(spec, int(n), int(r), int(seed), _hash(config), data.name, config))
     return cells

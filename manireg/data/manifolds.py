@@ -310,7 +310,7 @@ def render_pebble(u: np.ndarray, size: int = 32, chunk: int = 256) -> np.ndarray
     return out
 
 
-#: name -> generator, for the CLI and studies.
+#: name -> generator, for the CLI and campaigns.
 GENERATORS = {
     "sphere": sphere,
     "torus": torus,

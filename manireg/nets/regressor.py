@@ -1,7 +1,7 @@
 """A scikit-learn style regressor: one ReLU network sized by the manifold rules, trained by the batched
 trainer.
 
-Kept apart from :mod:`manireg.nets.training` so that the trainer (what study workers import) does not pull
+Kept apart from :mod:`manireg.nets.training` so that the trainer (what campaign workers import) does not pull
 in scikit-learn.
 """
 

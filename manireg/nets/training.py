@@ -18,7 +18,7 @@ References
 .. [4] M. Chen, H. Jiang, W. Liao, T. Zhao, Information and Inference 11 (2022).
 .. [5] J. Schmidt-Hieber, Ann. Statist. 48 (2020).
 .. [6] P. Micikevicius et al., "Mixed precision training", ICLR 2018.
-.. [7] D. Kalamkar et al., "A study of BFLOAT16 for deep learning training", arXiv:1905.12322 (2019).
+.. [7] D. Kalamkar et al., "A campaign of BFLOAT16 for deep learning training", arXiv:1905.12322 (2019).
 """
 
 from __future__ import annotations
@@ -119,7 +119,7 @@ class TrainConfig:
         emulated bfloat16 is slower than float32), else ``"float32"``; see :func:`resolve_precision`.
         Each :class:`ReplicaResult` records the precision used. bfloat16 stalls near a test MSE of 1e-6
         of the target's variance (measured on an easy noise-free target; float32 went 20x lower): for a
-        noise-free study whose errors go below about 1e-5 of the target variance use ``"float32"``.
+        noise-free campaign whose errors go below about 1e-5 of the target variance use ``"float32"``.
     n_threads : int or None, default=None
         torch intra-op threads during ``fit``/``predict`` (restored afterwards). None chooses per group:
         one thread when a training step costs under 2e8 flops (thread start-up then costs more than it

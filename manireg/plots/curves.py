@@ -39,7 +39,7 @@ def plot_learning_curves(rows, fits=None, *, metric: str = "test_mse", ax=None, 
 
     Parameters
     ----------
-    rows : DataFrame of study rows (columns learner, n, repeat, ``metric``, status, stop_reason, late_best).
+    rows : DataFrame of campaign rows (columns learner, n, repeat, ``metric``, status, stop_reason, late_best).
     fits : ExponentTable, dict of ExponentFit or None
         Fitted curves to draw; each legend entry carries the exponent, its interval and its verdict.
     show_predicted : draw the predicted slope 2s/(2s+d) (from the fit) anchored at the smallest size.

@@ -210,7 +210,7 @@ def size_network(n, d, s, input_dim, constants=None, width_multiplier=1.0, outpu
     constants : SizingConstants, optional
         Constants and bounds; the documented defaults when None.
     width_multiplier : float, default=1.0
-        Extra factor on the width (before clipping), for over-parameterisation studies.
+        Extra factor on the width (before clipping), for over-parameterisation campaigns.
     output_bound : float, optional
         Output clipping bound; ``constants.output_bound`` (default ``inf``) when None.
 

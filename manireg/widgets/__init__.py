@@ -1,4 +1,4 @@
-"""Notebook panels (ipywidgets): geometry, sizing, learning curves, and a study panel holding all three.
+"""Notebook panels (ipywidgets): geometry, sizing, learning curves, and a campaign panel holding all three.
 
 Each panel wires controls to core calls and draws with the figure functions of :mod:`manireg.plots`; it
 holds no numerical code. ``panel.results()`` returns a dataclass of the current results.
@@ -7,7 +7,7 @@ holds no numerical code. ``panel.results()`` returns a dataclass of the current 
 from .curves import CurvePanel, CurveResults
 from .geometry import GeometryPanel, GeometryResults
 from .sizing import SizingPanel, SizingResults
-from .study import StudyPanel, StudyResults
+from .workbench import WorkbenchPanel, WorkbenchResults
 
 __all__ = ["GeometryPanel", "GeometryResults", "SizingPanel", "SizingResults", "CurvePanel", "CurveResults",
-           "StudyPanel", "StudyResults"]
+           "WorkbenchPanel", "WorkbenchResults"]

@@ -1,6 +1,6 @@
-"""CurvePanel: run, pause and resume a learning-curve study; fit its exponent; plan samples.
+"""CurvePanel: run, pause and resume a learning-curve campaign; fit its exponent; plan samples.
 
-The sweep runs in a background thread through :meth:`manireg.curves.Study.run` (with its ``stop`` flag and
+The sweep runs in a background thread through :meth:`manireg.curves.Campaign.run` (with its ``stop`` flag and
 ``on_unit`` callback), so the kernel stays free. Pause sets the stop flag, which is read between units; the store keeps every finished
 cell, so resume is "run again": finished cells are skipped. After each unit the rows are reloaded, the
 progress bar moves (cells done / total) and the curves are refitted and redrawn.
@@ -43,18 +43,18 @@ class CurveResults(ResultMixin):
 
 
 class CurvePanel(Panel):
-    """Learning curves of a study with a live fit, its verdict and the sample planner.
+    """Learning curves of a campaign with a live fit, its verdict and the sample planner.
 
     Parameters
     ----------
-    source : Study, StudyResult or pandas.DataFrame
-        A :class:`manireg.curves.study.Study` (can be run, paused and resumed here), a finished
-        :class:`~manireg.curves.study.StudyResult`, or study rows.
+    source : Campaign, CampaignResult or pandas.DataFrame
+        A :class:`manireg.curves.campaign.Campaign` (can be run, paused and resumed here), a finished
+        :class:`~manireg.curves.campaign.CampaignResult`, or campaign rows.
     d, s : float, optional
         Intrinsic dimension and smoothness for the predicted exponent and the implied d or s (default: the
-        study's).
+        campaign's).
     input_dim : int, optional
-        Ambient dimension D (default: the study's).
+        Ambient dimension D (default: the campaign's).
     target_error : float, optional
         Initial target of the planner.
     n_boot, seed : int
@@ -64,7 +64,7 @@ class CurvePanel(Panel):
 
     Attributes
     ----------
-    study : Study or None
+    campaign : Campaign or None
     rows : DataFrame of the rows so far
     fit : ExponentFit of the selected learner, or None
     fits : dict learner -> ExponentFit (every learner, same settings)
@@ -79,9 +79,9 @@ class CurvePanel(Panel):
         super().__init__()
         import pandas as pd
 
-        from manireg.curves.study import Study, StudyResult
+        from manireg.curves.campaign import Campaign, CampaignResult
 
-        self.study = None
+        self.campaign = None
         self.fit = self.plan = None
         self.fits = {}
         self.running = False
@@ -90,14 +90,14 @@ class CurvePanel(Panel):
         self._lock = threading.RLock()
         self._quiet = False
         meta = {}
-        if isinstance(source, Study):
-            self.study = source
+        if isinstance(source, Campaign):
+            self.campaign = source
             data = source.data
-            meta = {"d": data.d, "s": data.s, "D": data.D, "noise_variance": data.noise_variance}
+            meta = {"d": data.dimension, "s": data.smoothness, "D": data.ambient_dim, "noise_variance": data.noise_variance}
             sizes = list(data.sizes)
             self.rows = source.result().rows
             self.cells_total = len(source.cells())
-        elif isinstance(source, StudyResult):
+        elif isinstance(source, CampaignResult):
             meta = {"d": source.d, "s": source.s, "D": source.D, "noise_variance": source.noise_variance}
             self.rows = source.rows
             sizes = sorted(int(v) for v in self.rows["n"].unique())
@@ -108,7 +108,7 @@ class CurvePanel(Panel):
             self.cells_total = len(self.rows)
         else:
             raise ValueError(
-                f"CurvePanel: source must be a Study, a StudyResult or a DataFrame of study rows; got "
+                f"CurvePanel: source must be a Campaign, a CampaignResult or a DataFrame of campaign rows; got "
                 f"{type(source).__name__}."
             )
         if len(sizes) < 2:
@@ -118,7 +118,7 @@ class CurvePanel(Panel):
         lay = widgets.Layout(width="280px")
 
         self.start_button = widgets.Button(description="Start / resume", button_style="success", icon="play",
-                                           disabled=self.study is None)
+                                           disabled=self.campaign is None)
         self.pause_button = widgets.Button(description="Pause", button_style="warning", icon="pause", disabled=True)
         self.progress = widgets.IntProgress(value=0, min=0, max=max(1, self.cells_total), description="cells",
                                             bar_style="info", layout=widgets.Layout(width="360px"))
@@ -161,7 +161,7 @@ class CurvePanel(Panel):
             widgets.HBox([self.n_boot, self.seed]), widgets.HBox([self.d, self.s, self.input_dim]),
         ])
         self.children = (
-            widgets.HTML("<b>Learning-curve study</b>"), run_box, fit_box,
+            widgets.HTML("<b>Learning-curve campaign</b>"), run_box, fit_box,
             widgets.HBox([self.curves_image, widgets.VBox([self.exponent_html, self.slopes_html])]),
             self.slopes_image,
             widgets.HTML("<b>Sample planner</b>"), widgets.HBox([self.target_error, self.allow_unverified]),
@@ -219,10 +219,10 @@ class CurvePanel(Panel):
 
     def _noise_variance(self):
         nv = self._number(self.noise_variance.value)
-        if nv is None and self.study is not None:
+        if nv is None and self.campaign is not None:
             from manireg.curves.noise import noise_variance
 
-            est = noise_variance(self.study.data.X, self.study.data.y)
+            est = noise_variance(self.campaign.data.X, self.campaign.data.y)
             self._quiet = True
             try:
                 self.noise_variance.value = float(est.value)
@@ -234,8 +234,8 @@ class CurvePanel(Panel):
     # ------------------------------------------------------------------ running
     def start(self):
         """Run the missing cells in a background thread (returns at once)."""
-        if self.study is None:
-            self._set_error("start", ValueError("this panel shows stored rows; pass a Study to run cells."))
+        if self.campaign is None:
+            self._set_error("start", ValueError("this panel shows stored rows; pass a Campaign to run cells."))
             return
         if self.running:
             return
@@ -259,13 +259,13 @@ class CurvePanel(Panel):
         return True
 
     def _worker(self):
-        study = self.study
+        campaign = self.campaign
         try:
-            pending = len(study.cells()) - len(study.store.finished_keys(study=study.data.label))
+            pending = len(campaign.cells()) - len(campaign.store.finished_keys(campaign=campaign.data.name))
             self._set_status(f"running about {max(pending, 0)} cells")
-            study.run(progress=False, stop=self._stop, on_unit=lambda rows: self.refresh())
+            campaign.run(progress=False, stop=self._stop, on_unit=lambda rows: self.refresh())
         except Exception as exc:  # noqa: BLE001 - shown in the panel
-            self._set_error("study run", exc)
+            self._set_error("campaign run", exc)
         finally:
             self.running = False
             self.start_button.disabled = False
@@ -278,10 +278,10 @@ class CurvePanel(Panel):
 
     # ------------------------------------------------------------------ updates
     def refresh(self):
-        """Reload the rows (from the study's store), move the progress bar, refit and redraw."""
+        """Reload the rows (from the campaign's store), move the progress bar, refit and redraw."""
         with self._lock:
-            if self.study is not None:
-                result = self._call("loading rows", self.study.result)
+            if self.campaign is not None:
+                result = self._call("loading rows", self.campaign.result)
                 if result is None:
                     return
                 self.rows = result.rows

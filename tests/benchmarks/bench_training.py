@@ -18,7 +18,7 @@ torch's setting).
 The comparison runs the batched trainer in float32 by default (``--precision``), so the ratio to the
 one-at-a-time loop measures batching alone. ``--crossover`` instead times one optimiser step (forward,
 backward, fused Adam; 5 replicas, one thread) in float32 and in bfloat16 mixed precision for the nets of
-the standard study (d = 3, D = 64, n = 256 .. 8192) and for narrower ones, with each step's flop count:
+the standard campaign (d = 3, D = 64, n = 256 .. 8192) and for narrower ones, with each step's flop count:
 the data behind ``manireg.nets.training.BF16_MIN_FLOPS``. ``--floor`` trains 3 replicas of a wide net
 (n = 4096, width multiplier 4) on a noise-free target on a circle in R^10 (d = 1, an easy target) for 500
 and 2000 steps in each arithmetic and prints the test MSE relative to the target's variance: how far down

@@ -1,9 +1,9 @@
-"""End-to-end time of a standard learning-curve study: manireg's executor against one-cell-at-a-time sklearn.
+"""End-to-end time of a standard learning-curve campaign: manireg's executor against one-cell-at-a-time sklearn.
 
-Study: ``graph_manifold(N, d=3, ambient_dim=64, seed=0)`` with ``make_regression(smoothness=1,
+Campaign: ``graph_manifold(N, d=3, ambient_dim=64, seed=0)`` with ``make_regression(smoothness=1,
 noise_std=0.1, seed=1)``; sizes 256, 512, ..., 8192 (6 sizes), 5 repeats, a fixed test set of 2048 rows.
 
-* manireg: ``Study(...).run(executor=..., n_jobs=...)`` with the default net learner (sized by
+* manireg: ``Campaign(...).run(executor=..., n_jobs=...)`` with the default net learner (sized by
   ``size_network``, default ``TrainConfig``); the 5 repeats of each n are one ``BatchedTrainer.fit`` call.
 * reference: the same cells (same nested training sets of size n, same test set) run one after another with
   ``sklearn.neural_network.MLPRegressor(hidden_layer_sizes=spec.hidden_sizes, early_stopping=True,
@@ -15,9 +15,9 @@ reference / manireg (> 1: manireg faster) and the mean test MSE (and noise-free 
 
 Run::
 
-    python tests/benchmarks/bench_study.py            # the full grid above
-    python tests/benchmarks/bench_study.py --quick    # sizes 256..2048 (4 sizes), 3 repeats
-    python tests/benchmarks/bench_study.py --precision float32 --no-reference   # manireg side only, float32
+    python tests/benchmarks/bench_campaign.py            # the full grid above
+    python tests/benchmarks/bench_campaign.py --quick    # sizes 256..2048 (4 sizes), 3 repeats
+    python tests/benchmarks/bench_campaign.py --precision float32 --no-reference   # manireg side only, float32
 
 ``--precision`` sets the net learner's ``TrainConfig.precision`` (default ``auto``: bfloat16 mixed
 precision for the larger nets on a CPU with native bfloat16, see docs/theory.md); the table then also
@@ -34,8 +34,8 @@ import time
 import numpy as np
 
 
-def sklearn_loop(study):
-    """The study's cells one after another with scikit-learn's MLPRegressor (same hidden sizes, same rows,
+def sklearn_loop(campaign):
+    """The campaign's cells one after another with scikit-learn's MLPRegressor (same hidden sizes, same rows,
     early stopping on 20 %, standardised inputs); returns (seconds, mean test MSEs per n)."""
     import pandas as pd
     from sklearn.neural_network import MLPRegressor
@@ -44,11 +44,11 @@ def sklearn_loop(study):
 
     from manireg.curves.learners import make_learner
 
-    data = study.data
+    data = campaign.data
     net = make_learner(data.learners[0])
     ref = []
     t0 = time.perf_counter()
-    for c in study.cells():
+    for c in campaign.cells():
         arch = net.architecture(c.n, data)
         fit_rows, val_rows = data.cell_rows(c)
         rows = np.concatenate([fit_rows, val_rows])
@@ -73,7 +73,7 @@ def main(argv=None):
     args = p.parse_args(argv)
 
     from manireg.curves.learners import LearnerSpec
-    from manireg.curves.study import Study
+    from manireg.curves.campaign import Campaign
     from manireg.data.manifolds import graph_manifold
     from manireg.data.targets import make_regression
 
@@ -81,16 +81,16 @@ def main(argv=None):
     repeats = 3 if args.quick else 5
     test_size = 2048
     sample = make_regression(graph_manifold(sizes[-1] + test_size, 3, 64, seed=0), 1.0, noise_std=0.1, seed=1)
-    store = os.path.join(tempfile.mkdtemp(prefix="bench-study-"), "study.sqlite")
+    store = os.path.join(tempfile.mkdtemp(prefix="bench-campaign-"), "campaign.sqlite")
     net = LearnerSpec("net", params={} if args.precision == "auto" else {"precision": args.precision})
-    study = Study.from_regression_sample(sample, sizes=sizes, repeats=repeats, test_size=test_size, seed=0,
+    campaign = Campaign.from_regression_sample(sample, sizes=sizes, repeats=repeats, test_size=test_size, seed=0,
                                          label="bench", store=store, learners=[net])
-    print(f"grid: sizes {sizes}, {repeats} repeats, D=64, d=3, {len(study.cells())} cells; "
+    print(f"grid: sizes {sizes}, {repeats} repeats, D=64, d=3, {len(campaign.cells())} cells; "
           f"executor={args.executor}, n_jobs={args.n_jobs}, torch_threads={args.torch_threads}")
 
     arrivals = []  # (seconds since start when a unit's rows arrived, that unit's longest training time)
     t0 = time.perf_counter()
-    res = study.run(executor=args.executor, n_jobs=args.n_jobs, torch_threads=args.torch_threads, progress=True,
+    res = campaign.run(executor=args.executor, n_jobs=args.n_jobs, torch_threads=args.torch_threads, progress=True,
                     on_unit=lambda rows: arrivals.append((time.perf_counter() - t0,
                                                           max(r["seconds"] or 0.0 for r in rows))))
     t_ours = time.perf_counter() - t0
@@ -110,7 +110,7 @@ def main(argv=None):
     if args.no_reference:
         print(f"\nmanireg: {t_ours:.1f} s (no reference run)")
     else:
-        t_ref, theirs = sklearn_loop(study)
+        t_ref, theirs = sklearn_loop(campaign)
         table = table.join(theirs.add_suffix("_sklearn"))
         print(f"\nmanireg: {t_ours:.1f} s   sklearn MLPRegressor one cell at a time: {t_ref:.1f} s   "
               f"ratio {t_ref / t_ours:.2f}x")

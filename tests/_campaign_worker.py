@@ -1,6 +1,6 @@
-"""Helper for the subprocess tests of the study store: run one small, fixed study into a store.
+"""Helper for the subprocess tests of the campaign store: run one small, fixed campaign into a store.
 
-Usage: python _study_worker.py STORE [--label L] [--delay SECONDS] [--learners net,knn]
+Usage: python _campaign_worker.py STORE [--name NAME] [--delay SECONDS] [--learners net,knn]
 
 ``--delay`` sleeps before each work unit (inside the worker, not between writes), so a test can kill the
 process while the store holds some rows but not all. The delay changes no number.
@@ -16,10 +16,10 @@ import time
 TINY_NET = {"max_steps": 60, "min_steps": 20, "patience_steps": 40, "eval_every": 10, "max_seconds": 1e6}
 
 
-def make_study(store, label="resume", learners=("net", "knn"), lr=3e-3, width_multiplier=1.0, data_seed=0):
-    """The small study every subprocess test uses (12 or 18 cells)."""
+def make_campaign(store, name="resume", learners=("net", "knn"), lr=3e-3, width_multiplier=1.0, data_seed=0):
+    """The small campaign every subprocess test uses (12 or 18 cells)."""
     from manireg.curves.learners import LearnerSpec
-    from manireg.curves.study import Study
+    from manireg.curves.campaign import Campaign
     from manireg.data.manifolds import graph_manifold
     from manireg.data.targets import make_regression
 
@@ -30,14 +30,14 @@ def make_study(store, label="resume", learners=("net", "knn"), lr=3e-3, width_mu
             specs.append(LearnerSpec("net", params=dict(TINY_NET, learning_rate=lr, width_multiplier=width_multiplier)))
         else:
             specs.append(LearnerSpec(kind))
-    return Study.from_regression_sample(sample, sizes=[40, 80, 160], repeats=2, learners=specs, seed=3,
-                                        label=label, store=store)
+    return Campaign.from_regression_sample(sample, sizes=[40, 80, 160], repeats=2, learners=specs, seed=3,
+                                        name=name, store=store)
 
 
 def main(argv=None):
     p = argparse.ArgumentParser()
     p.add_argument("store")
-    p.add_argument("--label", default="resume")
+    p.add_argument("--name", default="resume")
     p.add_argument("--delay", type=float, default=0.0)
     p.add_argument("--learners", default="net,knn")
     args = p.parse_args(argv)
@@ -51,8 +51,8 @@ def main(argv=None):
             return inner(*a, **k)
 
         ex.run_unit = slow
-    study = make_study(args.store, label=args.label, learners=tuple(args.learners.split(",")))
-    study.run(progress=False)
+    campaign = make_campaign(args.store, name=args.name, learners=tuple(args.learners.split(",")))
+    campaign.run(progress=False)
     return 0
 
 

@@ -1,9 +1,9 @@
-"""The entry point of a learning-curve study: define, run (or resume), reload, fit and plan.
+"""The entry point of a learning-curve campaign: define, run (or resume), reload, fit and plan.
 
->>> import manireg.curves.study as st                                          # doctest: +SKIP
->>> study = st.Study(X=X, y=y, sizes=[256, 512, 1024, 2048], repeats=5,
-...                  learners=["net", "knn"], store="results/study.sqlite")       # doctest: +SKIP
->>> result = study.run(executor="processes", n_jobs=2)                          # doctest: +SKIP
+>>> import manireg.curves.campaign as st                                          # doctest: +SKIP
+>>> campaign = st.Campaign(X=X, y=y, sizes=[256, 512, 1024, 2048], repeats=5,
+...                  learners=["net", "knn"], store="results/campaign.sqlite")       # doctest: +SKIP
+>>> result = campaign.run(executor="processes", n_jobs=2)                          # doctest: +SKIP
 >>> result.fit("net")                                                           # doctest: +SKIP
 
 Running again with the same settings and store finishes only what is missing; a changed setting makes new
@@ -26,28 +26,29 @@ from dataclasses import dataclass, field
 
 from manireg._results import ResultMixin
 from manireg.curves.execution import run_cells
+from manireg.curves.floors import DEFAULT_FLOOR, resolve_floor
 from manireg.curves.store import ResultStore
-from manireg.curves.sweep import StudySpec, expand, prepare
+from manireg.curves.sweep import CampaignSpec, expand, prepare
 
-__all__ = ["Study", "StudyResult"]
+__all__ = ["Campaign", "CampaignResult"]
 
 
 @dataclass
-class StudyResult(ResultMixin):
-    """Rows of a finished (or partly finished) study with what is needed to read them.
+class CampaignResult(ResultMixin):
+    """Rows of a finished (or partly finished) campaign with what is needed to read them.
 
     Attributes
     ----------
     rows : pandas.DataFrame
         One row per cell (columns :data:`manireg.curves.sweep.ROW_COLUMNS`).
     spec : dict
-        The study settings (:meth:`StudySpec.to_dict`).
-    d, s : float
-        Intrinsic dimension and smoothness the study used.
-    D : int
-        Ambient dimension.
-    label : str
-        Study name in the store.
+        The campaign settings (:meth:`CampaignSpec.to_dict`).
+    dimension, smoothness : float
+        Intrinsic dimension d and Hölder smoothness s the campaign used.
+    ambient_dim : int
+        Ambient dimension D.
+    name : str
+        Campaign name in the store.
     store_path : str
         Where the rows live.
     noise_variance : float or None
@@ -55,8 +56,8 @@ class StudyResult(ResultMixin):
     noise_estimate : float or None
         Label-noise variance estimated from the data outside the test set
         (:func:`manireg.curves.noise.noise_variance`, first-neighbour estimator); the floor of
-        ``floor="estimate"`` fits when no variance is known.
-    d_source : str
+        ``floor="estimate"`` fits.
+    dimension_source : str
         "given", "generator" or "estimated".
     summary : dict
         Counts of the last run (total, skipped, ran, failed); empty when loaded from a store.
@@ -64,14 +65,14 @@ class StudyResult(ResultMixin):
 
     rows: object = field(repr=False)
     spec: dict = field(repr=False)
-    d: float
-    s: float
-    D: int
-    label: str
+    dimension: float
+    smoothness: float
+    ambient_dim: int
+    name: str
     store_path: str
     noise_variance: float | None = None
     noise_estimate: float | None = None
-    d_source: str = "given"
+    dimension_source: str = "given"
     summary: dict = field(default_factory=dict)
     _skip_in_dict = ("rows",)
 
@@ -84,21 +85,20 @@ class StudyResult(ResultMixin):
         return sorted(self.rows["learner"].astype(str).unique()) if len(self.rows) else []
 
     def _fit_kwargs(self, kwargs):
-        kwargs.setdefault("smoothness", self.s)
-        kwargs.setdefault("dimension", self.d)
-        kwargs.setdefault("ambient_dim", self.D)
-        if kwargs.get("floor") == "estimate" and kwargs.get("noise_variance") is None:
-            known = self.noise_variance if self.noise_variance is not None else self.noise_estimate
-            if known is not None:
-                kwargs["noise_variance"] = known
+        kwargs.setdefault("smoothness", self.smoothness)
+        kwargs.setdefault("dimension", self.dimension)
+        kwargs.setdefault("ambient_dim", self.ambient_dim)
+        floor, extra = resolve_floor(kwargs.get("floor", DEFAULT_FLOOR), self.noise_estimate)
+        kwargs["floor"] = floor
+        for k, v in extra.items():
+            kwargs.setdefault(k, v)
         return kwargs
 
     def fit(self, learner=None, **kwargs):
         """Fitted exponent of one learner (:func:`manireg.curves.fitting.fit_exponent`).
 
-        ``smoothness``, ``dimension`` and ``ambient_dim`` default to the study's s, d and D; with
-        ``floor="estimate"`` the known noise variance of synthetic data is used when none is given, else
-        the study's noise estimate.
+        ``smoothness``, ``dimension`` and ``ambient_dim`` default to the campaign's; ``floor`` takes the
+        choices of :func:`resolve_floor` (default ``"estimate"``: the campaign's noise estimate).
         With several learners and ``learner=None`` this returns :meth:`fit_all`.
 
         References
@@ -139,22 +139,22 @@ class StudyResult(ResultMixin):
 
         if fit is None:
             fit = fit_exponent(self.rows, learner, **self._fit_kwargs(dict(fit_kwargs)))
-        return plan_samples(fit, target_error, allow_unverified=allow_unverified, dimension=self.d,
-                            smoothness=self.s, input_dim=self.D)
+        return plan_samples(fit, target_error, allow_unverified=allow_unverified, dimension=self.dimension,
+                            smoothness=self.smoothness, input_dim=self.ambient_dim)
 
 
-class Study:
-    """A learning-curve study bound to a result store.
+class Campaign:
+    """A learning-curve campaign bound to a result store.
 
     Parameters
     ----------
-    spec : StudySpec, optional
+    spec : CampaignSpec, optional
         The definition; or pass its fields as keyword arguments (``X=..., y=..., sizes=...``).
     store : str or os.PathLike or ResultStore, optional
         Where rows are kept. None: a fresh file in a new temporary folder (kept until the OS cleans it;
         pass a path to resume later). Opened at once, so an unwritable path fails before any work.
     **kwargs
-        Fields of :class:`StudySpec` when ``spec`` is None.
+        Fields of :class:`CampaignSpec` when ``spec`` is None.
 
     Raises
     ------
@@ -169,48 +169,48 @@ class Study:
 
     def __init__(self, spec=None, *, store=None, **kwargs):
         if spec is None:
-            spec = StudySpec(**kwargs)
+            spec = CampaignSpec(**kwargs)
         elif kwargs:
-            raise ValueError(f"Study: pass a StudySpec or keyword fields, not both; got spec and {sorted(kwargs)}.")
-        if not isinstance(spec, StudySpec):
-            raise ValueError(f"Study: spec must be a StudySpec; got {type(spec).__name__}.")
+            raise ValueError(f"Campaign: pass a CampaignSpec or keyword fields, not both; got spec and {sorted(kwargs)}.")
+        if not isinstance(spec, CampaignSpec):
+            raise ValueError(f"Campaign: spec must be a CampaignSpec; got {type(spec).__name__}.")
         self.spec = spec
         if store is None:
-            store = os.path.join(tempfile.mkdtemp(prefix="manireg-study-"), "study.sqlite")
+            store = os.path.join(tempfile.mkdtemp(prefix="manireg-campaign-"), "campaign.sqlite")
         self.store = store if isinstance(store, ResultStore) else ResultStore(store)
         self.data = prepare(spec)
         self._cells = None
 
     @classmethod
     def from_regression_sample(cls, sample, *, store=None, **kwargs):
-        """A study on a synthetic :class:`manireg.data.RegressionSample`, keeping its noise-free target.
+        """A campaign on a synthetic :class:`manireg.data.RegressionSample`, keeping its noise-free target.
 
         d and s default to the sample's true dimension and smoothness; the rows then carry
-        ``test_mse_clean`` and :meth:`StudyResult.fit` knows the noise variance.
+        ``test_mse_clean`` and :meth:`CampaignResult.fit` knows the noise variance.
         """
-        kwargs.setdefault("d", float(sample.dimension))
-        kwargs.setdefault("s", float(sample.smoothness))
-        study = cls(StudySpec(X=sample.X, y=sample.y, f_clean=sample.f_clean, **kwargs), store=store)
-        study.data.noise_variance = float(sample.noise_variance)
-        return study
+        kwargs.setdefault("dimension", float(sample.dimension))
+        kwargs.setdefault("smoothness", float(sample.smoothness))
+        campaign = cls(CampaignSpec(X=sample.X, y=sample.y, f_clean=sample.f_clean, **kwargs), store=store)
+        campaign.data.noise_variance = float(sample.noise_variance)
+        return campaign
 
     def cells(self) -> list:
-        """All cells of the study (see :func:`manireg.curves.sweep.expand`)."""
+        """All cells of the campaign (see :func:`manireg.curves.sweep.expand`)."""
         if self._cells is None:
             self._cells = expand(self.data)
         return list(self._cells)
 
     def run(self, executor="inprocess", n_jobs=None, scheduler=None, retry_failed=False, progress=True,
-            torch_threads=1, stop=None, on_unit=None, metadata=None) -> StudyResult:
-        """Run the missing cells and return every row of this study's cells.
+            torch_threads=1, stop=None, on_unit=None, metadata=None) -> CampaignResult:
+        """Run the missing cells and return every row of this campaign's cells.
 
         See :func:`manireg.curves.execution.run_cells` for the arguments (``stop`` pauses between units,
         ``on_unit`` is called after each stored unit). ``metadata`` (a dict, e.g. the geometry read-out) is
-        stored with the study's own metadata, so a report rebuilt from the store has it. Interrupting (Ctrl-C)
+        stored with the campaign's own metadata, so a report rebuilt from the store has it. Interrupting (Ctrl-C)
         keeps what finished; calling ``run`` again resumes.
         """
         cells = self.cells()
-        self.store.put_study({**self.data.metadata(self.spec), "noise_estimate": self.noise_estimate(), **(metadata or {})})
+        self.store.put_campaign({**self.data.metadata(self.spec), "noise_estimate": self.noise_estimate(), **(metadata or {})})
         summary = run_cells(cells, self.data, self.store, executor=executor, n_jobs=n_jobs, scheduler=scheduler,
                             progress=progress, retry_failed=retry_failed, torch_threads=torch_threads,
                             stop=stop, on_unit=on_unit)
@@ -230,52 +230,53 @@ class Study:
                 self._noise = float(noise_variance(self.data.X[pool], self.data.y[pool]).value)
         return self._noise
 
-    def result(self, summary=None) -> StudyResult:
-        """The rows stored so far for this study's cells (no training)."""
-        rows = self.store.rows(self.data.label, keys=[c.key for c in self.cells()])
-        return StudyResult(rows=rows, spec=self.spec.to_dict(), d=self.data.d, s=self.data.s, D=self.data.D,
-                           label=self.data.label, store_path=self.store.path,
-                           noise_variance=self.data.noise_variance, noise_estimate=self.noise_estimate(),
-                           d_source=self.data.d_source,
-                           summary=dict(summary or {}))
+    def result(self, summary=None) -> CampaignResult:
+        """The rows stored so far for this campaign's cells (no training)."""
+        rows = self.store.rows(self.data.name, keys=[c.key for c in self.cells()])
+        return CampaignResult(rows=rows, spec=self.spec.to_dict(), dimension=self.data.dimension,
+                              smoothness=self.data.smoothness, ambient_dim=self.data.ambient_dim,
+                              name=self.data.name, store_path=self.store.path,
+                              noise_variance=self.data.noise_variance, noise_estimate=self.noise_estimate(),
+                              dimension_source=self.data.dimension_source, summary=dict(summary or {}))
 
     @staticmethod
-    def from_store(path, study=None) -> StudyResult:
-        """Reload a study's rows and metadata from a store without training.
+    def from_store(path, campaign=None) -> CampaignResult:
+        """Reload a campaign's rows and metadata from a store without training.
 
         Parameters
         ----------
         path : str or os.PathLike
-        study : str, optional
-            Label; may be omitted when the store holds one study.
+        campaign : str, optional
+            Label; may be omitted when the store holds one campaign.
 
         Returns
         -------
-        StudyResult
-            Rows of that study computed on the data recorded in its metadata (matching fingerprint).
+        CampaignResult
+            Rows of that campaign computed on the data recorded in its metadata (matching fingerprint).
         """
         path = os.fspath(path)
         if not os.path.exists(path):
-            raise FileNotFoundError(f"Study.from_store: no store at {path!r}; pass the path a study was run with.")
+            raise FileNotFoundError(f"Campaign.from_store: no store at {path!r}; pass the path a campaign was run with.")
         store = ResultStore(path)
-        labels = store.studies()
-        if study is None:
+        labels = store.campaigns()
+        if campaign is None:
             if len(labels) != 1:
-                raise ValueError(f"Study.from_store: the store holds studies {labels}; pass study=... to pick one.")
-            study = labels[0]
-        if study not in labels:
-            raise ValueError(f"Study.from_store: the store holds no study {study!r}; it holds {labels}.")
-        meta = store.study_meta(study)
-        rows = store.rows(study)
+                raise ValueError(f"Campaign.from_store: the store holds campaigns {labels}; pass campaign=... to pick one.")
+            campaign = labels[0]
+        if campaign not in labels:
+            raise ValueError(f"Campaign.from_store: the store holds no campaign {campaign!r}; it holds {labels}.")
+        meta = store.campaign_meta(campaign)
+        rows = store.rows(campaign)
         fp = meta.get("fingerprint")
         if fp is not None and len(rows):
             same = rows["config_json"].map(lambda s: json.loads(s).get("data") == fp if s else False)
             rows = rows[same.to_numpy(dtype=bool)].reset_index(drop=True)
-        return StudyResult(rows=rows, spec=meta.get("spec") or {}, d=meta.get("d"), s=meta.get("s"), D=meta.get("D"),
-                           label=study, store_path=path, noise_variance=meta.get("noise_variance"),
-                           noise_estimate=meta.get("noise_estimate"),
-                           d_source=meta.get("d_source", "given"))
+        return CampaignResult(rows=rows, spec=meta.get("spec") or {}, dimension=meta.get("dimension"),
+                              smoothness=meta.get("smoothness"), ambient_dim=meta.get("ambient_dim"),
+                              name=campaign, store_path=path, noise_variance=meta.get("noise_variance"),
+                              noise_estimate=meta.get("noise_estimate"),
+                              dimension_source=meta.get("dimension_source", "given"))
 
     def __repr__(self):
-        return (f"Study(label={self.data.label!r}, sizes={self.data.sizes}, repeats={self.data.repeats}, "
+        return (f"Campaign(name={self.data.name!r}, sizes={self.data.sizes}, repeats={self.data.repeats}, "
                 f"learners={[l.name for l in self.data.learners]}, store={self.store.path!r})")
