@@ -254,7 +254,7 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
         failed = rows[rows["status"] == "failed"] if "status" in rows else rows.iloc[:0]
         sec.paragraphs.append(
             f"{len(ok)} finished cells ({len(failed)} failed) over sizes {sorted(set(int(v) for v in ok['n']))}, "
-            f"learners {sorted(set(ok['learner']))}; d = {campaign.d:g} ({campaign.d_source}), s = {campaign.s:g}, D = {campaign.D}.")
+            f"learners {sorted(set(ok['learner']))}; d = {campaign.dimension:g} ({campaign.dimension_source}), s = {campaign.smoothness:g}, D = {campaign.ambient_dim}.")
         if len(failed):
             sec.tables.append(("Failed cells", failed[["learner", "n", "repeat", "error"]]))
         summary["campaign"] = campaign.to_dict()

@@ -38,8 +38,8 @@ def sphere_csv(tmp_path_factory):
 @pytest.fixture(scope="module")
 def finished_campaign(sphere_csv, tmp_path_factory):
     out = tmp_path_factory.mktemp("campaign")
-    r = _cli("campaign", str(sphere_csv), "--target", "y", "--sizes", "40", "80", "160", "320", "--repeats", "3",
-             "--learners", "knn", "net", "--no-embed", "--quiet", "--out", str(out), "--smoothness", "1",
+    r = _cli("curves", str(sphere_csv), "--target", "y", "--sizes", "40", "80", "160", "320", "--repeats", "3",
+             "--learners", "knn", "net", "--no-view", "--quiet", "--out", str(out), "--smoothness", "1",
              "--precision", "float32")
     assert r.returncode == 0, r.stderr
     return out, r
@@ -70,12 +70,15 @@ def test_campaign_writes_report_consistent_with_core(finished_campaign):
         assert f"id='fig-{name[:-4]}'" in html
         assert (out / "figures" / name).exists()
     assert "asymptotic statements" in html and "data:image/png;base64," in html
+    # no raw Python warning or library chatter on the screen: every warning is one "warning: ..." line
+    for text in (r.stdout, r.stderr):
+        assert not re.search(r"\w+Warning:|\.py:\d+|Traceback|Tensorflow", text), text
 
 
 def test_report_rebuilds_from_store_without_training(finished_campaign, tmp_path):
     out, _ = finished_campaign
     before = sqlite3.connect(out / "campaign.sqlite").execute("SELECT COUNT(*) FROM cells").fetchone()[0]
-    assert main(["report", str(out / "campaign.sqlite"), "--out", str(tmp_path), "--quiet"]) == 0
+    assert main(["report", "--store", str(out / "campaign.sqlite"), "--out", str(tmp_path), "--quiet"]) == 0
     after = sqlite3.connect(out / "campaign.sqlite").execute("SELECT COUNT(*) FROM cells").fetchone()[0]
     assert before == after  # nothing trained, nothing added
     a = json.loads((out / "summary.json").read_text())["exponents"]["knn"]
@@ -83,19 +86,25 @@ def test_report_rebuilds_from_store_without_training(finished_campaign, tmp_path
     assert a["exponent"] == pytest.approx(b["exponent"]) and a["verdict"] == b["verdict"]
 
 
-def test_plan_from_store_and_from_rules(finished_campaign, capsys):
+def test_size_from_rules_and_plan_from_store(finished_campaign, capsys):
     out, _ = finished_campaign
-    assert main(["plan", "--dimension", "2", "--smoothness", "1", "--input-dim", "64"]) == 0
+    assert main(["size", "--dimension", "2", "--smoothness", "1", "--ambient-dim", "64"]) == 0
     text = capsys.readouterr().out
     # 2s/(2s+d) = 0.5 for s = 1, d = 2 (REFERENCES.md exponent table); halving the error takes 2^(1/0.5) = 4x
-    assert "2s/(2s+d) = 0.5000" in text and "needs 4x the samples" in text
-    rc = main(["plan", "--from-store", str(out / "campaign.sqlite"), "--learner", "knn", "--target-error", "0.3", "--allow-unverified"])
+    assert "2s/(2s+d) = 0.500" in text and "needs 4x the samples" in text
+    # sizing constants reach the table: twice c_width doubles the width below the cap
+    assert main(["size", "--dimension", "2", "--smoothness", "1", "--sizes", "100", "--sizing", "c_width=4"]) == 0
+    wide = capsys.readouterr().out
+    assert main(["size", "--dimension", "2", "--smoothness", "1", "--sizes", "100"]) == 0
+    plain = capsys.readouterr().out
+    assert wide != plain
+    rc = main(["plan", "--store", str(out / "campaign.sqlite"), "--learner", "knn", "--target-error", "0.3", "--allow-unverified"])
     text = capsys.readouterr().out
     assert rc == 0 and "samples for test error 0.3" in text
 
 
 def test_geometry_command_on_csv(sphere_csv, tmp_path, capsys):
-    assert main(["geometry", str(sphere_csv), "--target", "y", "--no-embed", "--quiet", "--out", str(tmp_path)]) == 0
+    assert main(["geometry", str(sphere_csv), "--target", "y", "--no-view", "--quiet", "--out", str(tmp_path)]) == 0
     text = capsys.readouterr().out
     geo = json.loads((tmp_path / "geometry.json").read_text())
     assert 1.5 < geo["dimension"]["consensus"] < 2.6  # a 2-sphere
@@ -115,18 +124,23 @@ def test_demo_quick(tmp_path):
     "args,message",
     [
         (["geometry", "nope.csv"], "no such file"),
-        (["campaign", "{csv}", "--target", "price"], "target column 'price' is not in"),
-        (["campaign", "{csv}", "--target", "y", "--sizes", "100", "100000", "--no-geometry", "--dimension", "2"], "size"),
-        (["campaign", "{nan}", "--target", "y"], "missing or infinite"),
-        (["campaign", "{csv}", "--target", "y", "--repeats", "0"], "--repeats must be >= 1"),
-        (["plan", "--dimension", "2"], "pass --dimension d and --smoothness s"),
-        (["report", "missing.sqlite"], "no store at"),
+        (["curves", "{csv}", "--target", "price"], "target column 'price' is not in"),
+        (["curves", "{csv}", "--target", "Y"], "Did you mean 'y'?"),
+        (["curves", "{csv}", "--target", "y", "--sizes", "100", "100000", "--no-geometry", "--dimension", "2"], "size"),
+        (["curves", "{nan}", "--target", "y"], "missing or infinite"),
+        (["curves", "{csv}", "--target", "y", "--repeats", "0"], "--repeats must be >= 1"),
+        (["curves", "{csv}", "--target", "y", "--no-geometry"], "--no-geometry needs --dimension"),
+        (["curves", "{csv}", "--target", "y", "--floor", "sometimes"], "--floor"),
+        (["curves", "{csv}", "--target", "y", "--sizing", "c_widht=4"], "Did you mean 'c_width'?"),
+        (["size", "--dimension", "2", "--smoothness", "0"], "must be > 0"),
+        (["report", "--store", "missing.sqlite"], "no store at"),
+        (["plan", "--store", "missing.sqlite", "--target-error", "0.1"], "no store at"),
     ],
 )
 def test_bad_input_exit_2_one_line(args, message, sphere_csv, tmp_path, capsys):
     nan_csv = tmp_path / "nan.csv"
     pd.DataFrame({"a": [1.0, np.nan, 2.0], "y": [1.0, 2.0, 3.0]}).to_csv(nan_csv, index=False)
-    args = [a.format(csv=sphere_csv, nan=nan_csv) for a in args] + (["--out", str(tmp_path / "o")] if args[0] not in ("plan",) else [])
+    args = [a.format(csv=sphere_csv, nan=nan_csv) for a in args] + (["--out", str(tmp_path / "o")] if args[0] not in ("plan", "size") else [])
     rc = main(args)
     err = capsys.readouterr().err
     assert rc == 2
@@ -148,7 +162,7 @@ def test_no_command_prints_help(capsys):
 
 def test_interrupt_then_resume(sphere_csv, tmp_path):
     out = tmp_path / "run"
-    args = [sys.executable, "-m", "manireg", "campaign", str(sphere_csv), "--target", "y", "--sizes", "40", "80", "160", "320",
+    args = [sys.executable, "-m", "manireg", "curves", str(sphere_csv), "--target", "y", "--sizes", "40", "80", "160", "320",
             "--repeats", "3", "--learners", "net", "knn", "--no-geometry", "--dimension", "2", "--quiet", "--out", str(out)]
     # a shell without job control starts background commands with SIGINT ignored, and Python then installs no
     # handler; give the child the default disposition, as an interactive terminal would
@@ -178,3 +192,35 @@ def test_interrupt_then_resume(sphere_csv, tmp_path):
     assert r.returncode == 0, r.stderr
     keys = [k for (k,) in sqlite3.connect(store).execute("SELECT key FROM cells")]
     assert len(keys) == len(set(keys)) == 2 * 4 * 3  # every cell once
+    # the second run says that it resumed and how much was left
+    found = re.search(r"resuming: (\d+) cells already in the store, (\d+) to run", r.stdout)
+    assert found and int(found.group(1)) >= kept and int(found.group(1)) + int(found.group(2)) == 24
+
+
+def test_sizes_beyond_the_data_fail_before_any_file(sphere_csv, tmp_path, capsys):
+    out = tmp_path / "o"
+    assert main(["curves", str(sphere_csv), "--target", "y", "--sizes", "100", "5000", "--quiet", "--out", str(out)]) == 2
+    assert "only 560 rows are left for training" in capsys.readouterr().err
+    assert not out.exists()  # no folder, no empty store
+
+
+def test_id_column_is_a_one_flag_fix(sphere_csv, tmp_path, capsys):
+    df = pd.read_csv(sphere_csv)
+    df.insert(0, "sample_id", np.arange(len(df)))
+    path = tmp_path / "with_id.csv"
+    df.to_csv(path, index=False)
+    assert main(["geometry", str(path), "--no-view", "--quiet", "--out", str(tmp_path / "a")]) == 2
+    err = capsys.readouterr().err
+    assert "--drop sample_id" in err and err.count("\n") == 1
+    assert main(["geometry", str(path), "--drop", "sample_id", "y", "--no-view", "--quiet", "--out", str(tmp_path / "b")]) == 0
+    assert "8 feature columns" in capsys.readouterr().out
+
+
+@pytest.mark.parametrize("argv,new", [(["study", "x.csv"], "'study' is now 'curves'"),
+                                      (["report", "--study", "a"], "'--study' is now '--campaign'"),
+                                      (["size", "--input-dim", "3"], "'--input-dim' is now '--ambient-dim'"),
+                                      (["plan", "--from-store", "s.sqlite"], "'--from-store' is now '--store'")])
+def test_old_names_get_the_new_name(argv, new, capsys):
+    assert main(argv) == 2
+    err = capsys.readouterr().err
+    assert "usage:" in err and new in err

@@ -54,8 +54,45 @@ def test_empty_file(tmp_path):
 
 
 def test_missing_target_column(tmp_table):
-    with pytest.raises(ValueError, match="target column 'price' is not in .*columns are: 'a', 'b', 'c', 'y'"):
+    with pytest.raises(ValueError, match="target column 'price' is not in .*Columns are: 'a', 'b', 'c', 'y'"):
         load_table(tmp_table, target="price")
+
+
+def test_misspelt_target_gets_a_suggestion(tmp_table):
+    with pytest.raises(ValueError, match="target column 'Y' is not in .* Did you mean 'y'\\?"):
+        load_table(tmp_table, target="Y")
+
+
+def _with_id(tmp_path, name="sample_id"):
+    rng = np.random.default_rng(0)
+    df = pd.DataFrame(rng.normal(size=(20, 3)), columns=["a", "b", "y"])
+    df.insert(0, name, np.arange(100, 120))
+    path = tmp_path / "ids.csv"
+    df.to_csv(path, index=False)
+    return path
+
+
+@pytest.mark.parametrize("name", ["sample_id", "id", "ID", "index"])
+def test_id_column_is_refused_with_the_flag_that_fixes_it(tmp_path, name):
+    path = _with_id(tmp_path, name)
+    with pytest.raises(ValueError, match=f"look like row identifiers.*--drop {name}"):
+        load_table(path, target="y")
+    table = load_table(path, target="y", drop=[name])
+    assert table.feature_names == ["a", "b"] and table.X.shape == (20, 2)
+    # naming the features keeps what the user names
+    assert load_table(path, target="y", columns=[name, "a"]).feature_names == [name, "a"]
+
+
+def test_numeric_column_not_named_like_an_id_is_kept(tmp_path):
+    rng = np.random.default_rng(1)
+    df = pd.DataFrame({"count": np.arange(20), "a": rng.normal(size=20), "y": rng.normal(size=20)})
+    df.to_csv(tmp_path / "t.csv", index=False)
+    assert load_table(tmp_path / "t.csv", target="y").feature_names == ["count", "a"]
+
+
+def test_drop_of_a_missing_column_suggests(tmp_table):
+    with pytest.raises(ValueError, match="to drop are not in .* Did you mean 'a'"):
+        load_table(tmp_table, target="y", drop=["A"])
 
 
 def test_non_numeric_columns(tmp_path):

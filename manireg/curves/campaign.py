@@ -84,7 +84,10 @@ class CampaignResult(ResultMixin):
     def learners(self) -> list:
         return sorted(self.rows["learner"].astype(str).unique()) if len(self.rows) else []
 
-    def _fit_kwargs(self, kwargs):
+    def fit_settings(self, **kwargs) -> dict:
+        """Keyword arguments of :func:`~manireg.curves.fitting.fit_exponent` for this campaign: ``dimension``,
+        ``smoothness`` and ``ambient_dim`` default to the campaign's, and ``floor`` (default ``"estimate"``) is
+        resolved by :func:`~manireg.curves.floors.resolve_floor` against the campaign's noise estimate."""
         kwargs.setdefault("smoothness", self.smoothness)
         kwargs.setdefault("dimension", self.dimension)
         kwargs.setdefault("ambient_dim", self.ambient_dim)
@@ -109,13 +112,13 @@ class CampaignResult(ResultMixin):
 
         if learner is None and len(self.learners) > 1:
             return self.fit_all(**kwargs)
-        return fit_exponent(self.rows, learner, **self._fit_kwargs(kwargs))
+        return fit_exponent(self.rows, learner, **self.fit_settings(**kwargs))
 
     def fit_all(self, **kwargs):
         """Exponents of every learner (:func:`manireg.curves.fitting.fit_all`)."""
         from manireg.curves.fitting import fit_all
 
-        return fit_all(self.rows, **self._fit_kwargs(kwargs))
+        return fit_all(self.rows, **self.fit_settings(**kwargs))
 
     def plan(self, target_error, learner=None, *, fit=None, allow_unverified=False, **fit_kwargs):
         """Samples needed for ``target_error`` (:func:`manireg.curves.planning.plan_samples`).
@@ -138,7 +141,7 @@ class CampaignResult(ResultMixin):
         from manireg.curves.planning import plan_samples
 
         if fit is None:
-            fit = fit_exponent(self.rows, learner, **self._fit_kwargs(dict(fit_kwargs)))
+            fit = fit_exponent(self.rows, learner, **self.fit_settings(**fit_kwargs))
         return plan_samples(fit, target_error, allow_unverified=allow_unverified, dimension=self.dimension,
                             smoothness=self.smoothness, input_dim=self.ambient_dim)
 
@@ -175,10 +178,10 @@ class Campaign:
         if not isinstance(spec, CampaignSpec):
             raise ValueError(f"Campaign: spec must be a CampaignSpec; got {type(spec).__name__}.")
         self.spec = spec
+        self.data = prepare(spec)  # before the store: bad settings never leave a file behind
         if store is None:
             store = os.path.join(tempfile.mkdtemp(prefix="manireg-campaign-"), "campaign.sqlite")
         self.store = store if isinstance(store, ResultStore) else ResultStore(store)
-        self.data = prepare(spec)
         self._cells = None
 
     @classmethod
@@ -199,6 +202,12 @@ class Campaign:
         if self._cells is None:
             self._cells = expand(self.data)
         return list(self._cells)
+
+    def progress(self) -> dict:
+        """``{"total", "finished", "remaining"}`` cells of this campaign (finished: stored with status ok)."""
+        keys = {c.key for c in self.cells()}
+        done = len(keys & self.store.finished_keys(include_failed=False, campaign=self.data.name))
+        return {"total": len(keys), "finished": done, "remaining": len(keys) - done}
 
     def run(self, executor="inprocess", n_jobs=None, scheduler=None, retry_failed=False, progress=True,
             torch_threads=1, stop=None, on_unit=None, metadata=None) -> CampaignResult:

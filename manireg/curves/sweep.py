@@ -35,7 +35,7 @@ import numpy as np
 from manireg._validation import check_float, check_int, check_points, check_target
 from manireg.curves.learners import LearnerSpec, make_learner
 
-__all__ = ["CampaignSpec", "CampaignData", "Cell", "expand", "prepare", "default_sizes", "canonical_json",
+__all__ = ["CampaignSpec", "CampaignData", "Cell", "expand", "prepare", "check_sizes", "default_sizes", "canonical_json",
            "ROW_COLUMNS", "DEFAULT_MIN_SIZE", "DEFAULT_N_SIZES", "MIN_SIZE"]
 
 #: Smallest size of the default grid (and the default grid never starts below it).
@@ -119,6 +119,8 @@ class CampaignSpec:
         (:func:`manireg.geometry.dimension.estimate_dimension`).
     smoothness : float, optional
         Hölder smoothness s; 1.0 (Lipschitz) when None and not known from the generator.
+    dimension_source : str, optional
+        Where a given ``dimension`` came from, in words (e.g. "geometry read-out"); default "given".
     name : str, default="campaign"
         Name of the campaign in the store (several campaigns can share one store).
 
@@ -141,6 +143,7 @@ class CampaignSpec:
     dimension: float | None = None
     smoothness: float | None = None
     name: str = "campaign"
+    dimension_source: str | None = None
 
     def to_dict(self) -> dict:
         """JSON-ready settings (arrays left out; the data is identified by its fingerprint elsewhere)."""
@@ -268,6 +271,46 @@ def _generate(gen: dict):
     return make_regression(sample, seed=_seed_int(seed, 7), **reg)
 
 
+def check_sizes(sizes, n_rows: int, *, test_fraction: float = 0.2, test_size=None, owner: str = "CampaignSpec"):
+    """``(test_size, sizes)`` for a table of ``n_rows`` rows: the test split's size and the sorted training sizes
+    (the default grid when ``sizes`` is None). Cheap, so callers can check sizes before any work or file.
+
+    Raises
+    ------
+    ValueError
+        Fewer than 2 distinct sizes, a size below :data:`MIN_SIZE`, a size above the rows left for training
+        after the test split (naming both numbers and the fix), bad test settings.
+    """
+    N = int(n_rows)
+    if test_size is not None:
+        test_size = check_int(test_size, "test_size", owner=owner, low=1, high=N - MIN_SIZE)
+    else:
+        tf = check_float(test_fraction, "test_fraction", owner=owner, low=0.0, high=0.9, low_open=True)
+        test_size = max(1, int(round(tf * N)))
+    n_pool = N - test_size
+    if sizes is None:
+        return test_size, default_sizes(n_pool)
+    raw = list(np.atleast_1d(np.asarray(sizes, dtype=object)))
+    if any(isinstance(v, bool) or not isinstance(v, numbers.Integral) for v in raw):
+        raise ValueError(f"the 'sizes' parameter of {owner} must be a list of ints; got {sizes!r}.")
+    out = sorted({int(v) for v in raw})
+    if len(out) < 2:
+        raise ValueError(
+            f"the 'sizes' parameter of {owner} needs at least 2 distinct sizes for a learning curve; got "
+            f"{sizes!r}. Pass e.g. sizes=[{max(MIN_SIZE, n_pool // 8)}, {max(MIN_SIZE, n_pool // 4)}, "
+            f"{n_pool}] or leave sizes=None for the default grid."
+        )
+    if out[0] < MIN_SIZE:
+        raise ValueError(f"the 'sizes' parameter of {owner} must hold sizes >= {MIN_SIZE}; got {out[0]}.")
+    if out[-1] > n_pool:
+        raise ValueError(
+            f"the 'sizes' parameter of {owner} has size {out[-1]} but only {n_pool} rows are left for "
+            f"training after the test split ({N} rows - {test_size} test rows). Use sizes <= {n_pool}, "
+            "pass more data, or lower test_fraction/test_size."
+        )
+    return test_size, out
+
+
 def prepare(spec: CampaignSpec) -> CampaignData:
     """Validate a :class:`CampaignSpec` and build its :class:`CampaignData` (splits, sizes, d, s, fingerprint).
 
@@ -284,7 +327,7 @@ def prepare(spec: CampaignSpec) -> CampaignData:
     if not isinstance(spec, CampaignSpec):
         raise ValueError(f"expected a CampaignSpec; got {type(spec).__name__}. Build one with CampaignSpec(X=..., y=...).")
     noise_variance = None
-    d, s, d_source = spec.dimension, spec.smoothness, "given"
+    d, s, d_source = spec.dimension, spec.smoothness, spec.dimension_source or "given"
     if spec.generator is not None:
         if spec.X is not None:
             raise ValueError(f"{owner}: give either X/y or generator, not both.")
@@ -293,7 +336,7 @@ def prepare(spec: CampaignSpec) -> CampaignData:
         noise_variance = float(sample.noise_variance)
         d = float(sample.dimension) if d is None else d
         s = float(sample.smoothness) if s is None else s
-        d_source = "generator" if spec.dimension is None else "given"
+        d_source = "generator" if spec.dimension is None else d_source
     else:
         if spec.X is None or spec.y is None:
             raise ValueError(f"{owner}: no data; pass X and y (arrays), or generator={{'manifold': ...}}.")
@@ -307,33 +350,8 @@ def prepare(spec: CampaignSpec) -> CampaignData:
     seed = check_int(spec.seed, "seed", owner=owner, low=0)
     validation_fraction = check_float(spec.validation_fraction, "validation_fraction", owner=owner, low=0.0, high=0.5,
                                low_open=True)
-    if spec.test_size is not None:
-        test_size = check_int(spec.test_size, "test_size", owner=owner, low=1, high=N - MIN_SIZE)
-    else:
-        tf = check_float(spec.test_fraction, "test_fraction", owner=owner, low=0.0, high=0.9, low_open=True)
-        test_size = max(1, int(round(tf * N)))
-    n_pool = N - test_size
-    if spec.sizes is None:
-        sizes = default_sizes(n_pool)
-    else:
-        raw = list(np.atleast_1d(np.asarray(spec.sizes, dtype=object)))
-        if any(isinstance(v, bool) or not isinstance(v, numbers.Integral) for v in raw):
-            raise ValueError(f"the 'sizes' parameter of {owner} must be a list of ints; got {spec.sizes!r}.")
-        sizes = sorted({int(v) for v in raw})
-        if len(sizes) < 2:
-            raise ValueError(
-                f"the 'sizes' parameter of {owner} needs at least 2 distinct sizes for a learning curve; got "
-                f"{spec.sizes!r}. Pass e.g. sizes=[{max(MIN_SIZE, n_pool // 8)}, {max(MIN_SIZE, n_pool // 4)}, "
-                f"{n_pool}] or leave sizes=None for the default grid."
-            )
-        if sizes[0] < MIN_SIZE:
-            raise ValueError(f"the 'sizes' parameter of {owner} must hold sizes >= {MIN_SIZE}; got {sizes[0]}.")
-        if sizes[-1] > n_pool:
-            raise ValueError(
-                f"the 'sizes' parameter of {owner} has size {sizes[-1]} but only {n_pool} rows are left for "
-                f"training after the test split ({N} rows - {test_size} test rows). Use sizes <= {n_pool}, "
-                "pass more data, or lower test_fraction/test_size."
-            )
+    test_size, sizes = check_sizes(spec.sizes, N, test_fraction=spec.test_fraction, test_size=spec.test_size,
+                                   owner=owner)
     learners = [LearnerSpec("net")] if spec.learners is None else [LearnerSpec.coerce(l) for l in spec.learners]
     if not learners:
         raise ValueError(f"the 'learners' parameter of {owner} is empty; pass at least one learner, e.g. ['net'].")

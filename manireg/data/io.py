@@ -31,7 +31,7 @@ class Table(ResultMixin):
         return self.X.shape[0]
 
 
-def load_table(path, target: str | int | None = None, *, columns=None) -> Table:
+def load_table(path, target: str | int | None = None, *, columns=None, drop=None) -> Table:
     """Load ``path`` into float arrays.
 
     Parameters
@@ -42,13 +42,19 @@ def load_table(path, target: str | int | None = None, *, columns=None) -> Table:
     target : column name (or integer position for ``.npy``), optional
         The regression target; ``None`` loads features only.
     columns : list of column names, optional
-        Feature columns to keep (default: every column but the target).
+        Feature columns to keep (default: every column but the target and ``drop``). Command line:
+        ``--features COL ...``.
+    drop : list of column names, optional
+        Columns to leave out of the features (an ID column, a date). Command line: ``--drop COL ...``.
 
     Raises
     ------
     ValueError (DataValidationError)
         Missing file, unknown format, empty file, missing target column, non-numeric columns, NaN or inf
-        (with count and location), fewer than 2 rows, mismatched lengths. Constant columns only warn.
+        (with count and location), fewer than 2 rows, mismatched lengths, a column that looks like a row
+        identifier (named like an ID and holding distinct integers) among the features unless ``columns``
+        names it. A misspelt column name gets the closest existing names suggested. Constant columns only
+        warn.
     """
     p = os.fspath(path)
     if not os.path.exists(p):
@@ -65,8 +71,10 @@ def load_table(path, target: str | int | None = None, *, columns=None) -> Table:
         raise DataValidationError(f"'{p}' is empty (0 bytes). Write the data into it first.")
     if ext in (".csv", ".parquet", ".pq"):
         frame = _read_frame(p, ext)
-        names, X, y, tname = _split_frame(frame, target, columns, p)
+        names, X, y, tname = _split_frame(frame, target, columns, p, drop)
     elif ext == ".npz":
+        if drop:
+            raise DataValidationError("drop= (--drop) selects columns of a CSV or Parquet table; slice the arrays of an .npz/.npy file instead.")
         names, X, y, tname = _read_npz(p, target, columns)
     else:
         names, X, y, tname = _read_npy(p, target)
@@ -87,7 +95,30 @@ def _read_frame(p, ext):
         raise DataValidationError(f"could not read '{p}' as {ext[1:]}: {exc}") from None
 
 
-def _split_frame(frame, target, columns, p):
+def _suggest(name, cols) -> str:
+    """' Did you mean 'y'?' for a misspelt column name, or ''."""
+    import difflib
+
+    lower = {c.lower(): c for c in cols}
+    close = [lower[m] for m in difflib.get_close_matches(str(name).lower(), list(lower), n=3, cutoff=0.5)]
+    return f" Did you mean {' or '.join(repr(c) for c in close)}?" if close else ""
+
+
+_ID_NAMES = ("id", "index", "idx", "key", "row", "sample", "unnamed: 0")
+
+
+def _looks_like_id(name: str, values) -> bool:
+    """A column named like a row identifier whose values are distinct integers (common practice: such a
+    column numbers the rows and carries no geometry)."""
+    low = name.strip().lower()
+    named = low in _ID_NAMES or low.endswith(("_id", " id", "-id")) or low.startswith(("id_", "id ")) or low.endswith("id") and len(low) <= 4
+    if not named:
+        return False
+    v = np.asarray(values, dtype=float)
+    return bool(np.all(np.isfinite(v)) and np.all(v == np.round(v)) and np.unique(v).size == v.size)
+
+
+def _split_frame(frame, target, columns, p, drop=None):
     if frame.shape[1] == 0:
         raise DataValidationError(f"'{p}' has no columns. Write a header row and data.")
     if frame.shape[0] < 2:
@@ -100,16 +131,23 @@ def _split_frame(frame, target, columns, p):
         tname = str(target)
         if tname not in cols:
             raise DataValidationError(
-                f"target column '{tname}' is not in '{p}'; columns are: {_preview(cols)}. Pass one of them with --target/target=."
+                f"target column '{tname}' is not in '{p}'.{_suggest(tname, cols)} Columns are: {_preview(cols)}. "
+                "Pass one of them with --target COL (target=... in Python)."
             )
         y = frame[tname]
     if columns is not None:
         missing = [c for c in columns if str(c) not in cols]
         if missing:
-            raise DataValidationError(f"column(s) {missing} are not in '{p}'; columns are: {_preview(cols)}.")
+            raise DataValidationError(f"feature column(s) {missing} are not in '{p}'.{_suggest(missing[0], cols)} "
+                                      f"Columns are: {_preview(cols)}.")
         feats = [str(c) for c in columns]
     else:
-        feats = [c for c in cols if c != tname]
+        dropped = [str(c) for c in (drop or [])]
+        missing = [c for c in dropped if c not in cols]
+        if missing:
+            raise DataValidationError(f"column(s) {missing} to drop are not in '{p}'.{_suggest(missing[0], cols)} "
+                                      f"Columns are: {_preview(cols)}.")
+        feats = [c for c in cols if c != tname and c not in dropped]
     if not feats:
         raise DataValidationError(f"'{p}' has no feature columns besides the target '{tname}'. Add features.")
     import pandas as pd
@@ -117,8 +155,18 @@ def _split_frame(frame, target, columns, p):
     nonnum = [c for c in feats if not pd.api.types.is_numeric_dtype(frame[c]) or pd.api.types.is_bool_dtype(frame[c])]
     if nonnum:
         raise DataValidationError(
-            f"non-numeric feature column(s) in '{p}': {_preview(nonnum)}. Drop them with columns=[...] or encode them as numbers."
+            f"non-numeric feature column(s) in '{p}': {_preview(nonnum)}. Leave them out with --drop "
+            f"{' '.join(nonnum[:3])} (drop=[...] in Python), choose the features with --features COL ... "
+            "(columns=[...]), or encode them as numbers."
         )
+    if columns is None:
+        ids = [c for c in feats if _looks_like_id(c, frame[c])]
+        if ids:
+            raise DataValidationError(
+                f"column(s) {_preview(ids)} in '{p}' look like row identifiers (named like an ID, distinct integers) "
+                f"and would be used as coordinates. Leave them out with --drop {' '.join(ids[:3])} (drop=[...] in "
+                "Python), or name every feature with --features COL ... (columns=[...]) to keep them."
+            )
     if y is not None and not pd.api.types.is_numeric_dtype(y):
         raise DataValidationError(f"target column '{tname}' in '{p}' is not numeric. A regression target must be numbers.")
     X = frame[feats].to_numpy(dtype=np.float64)

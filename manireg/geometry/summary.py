@@ -14,7 +14,7 @@ import numpy as np
 from .._results import ResultMixin
 from .._validation import check_points, check_target
 
-__all__ = ["GeometrySummary", "describe_geometry", "GEOMETRY_STEPS"]
+__all__ = ["GeometrySummary", "describe_geometry", "GEOMETRY_STEPS", "working_dimension", "chart_dimension"]
 
 #: The steps of :func:`describe_geometry`, in order (a progress callback receives these names).
 GEOMETRY_STEPS = ("dimension", "charts", "chart counts", "curvature", "resolution", "2-D view")
@@ -84,6 +84,17 @@ class GeometrySummary(ResultMixin):
         return "\n".join(lines)
 
 
+def working_dimension(consensus) -> float:
+    """The dimension a campaign sizes its networks and predictions with: the consensus rounded to two
+    decimals and at least 1 (the one place this rounding is done)."""
+    return max(1.0, round(float(consensus), 2))
+
+
+def chart_dimension(consensus) -> int:
+    """The integer dimension of charts, reach and curvature: the rounded consensus, at least 1."""
+    return max(1, int(round(float(consensus))))
+
+
 def describe_geometry(
     X,
     y=None,
@@ -145,7 +156,7 @@ def _describe(X, y, *, dimension, radius, embed, max_embed_points, n_boot, seed,
     step("dimension")
     report = estimate_dimension(X, n_boot=n_boot, seed=seed)
     if dimension is None:
-        d = max(1, int(round(report.consensus)))
+        d = chart_dimension(report.consensus)
         source = f"rounded consensus {report.consensus:.2f}"
     else:
         d = int(dimension)

@@ -1,0 +1,61 @@
+"""``manireg geometry DATA``: intrinsic dimension, charts, reach and curvature of a table, with figures."""
+
+from __future__ import annotations
+
+import os
+
+from ._common import add_data_options, add_run_options, captured_warnings, load, out_dir, say, steps_bar, write_json
+
+HELP = "intrinsic dimension, charts, reach and curvature of a data file"
+
+
+def add_parser(sub):
+    p = sub.add_parser("geometry", help=HELP, description=HELP + ".")
+    add_data_options(p, target_required=False)
+    p.add_argument("--dimension", type=int, help="intrinsic dimension for charts and reach (default: the rounded consensus)")
+    p.add_argument("--radius", type=float, help="chart radius (default: the rule's radius, from the reach estimate)")
+    p.add_argument("--no-view", action="store_true", help="skip the 2-D view of the data")
+    add_run_options(p, "manireg-out/geometry")
+    p.set_defaults(func=run)
+    return p
+
+
+def describe(X, y, *, seed, view, dimension=None, radius=None, progress=True, n_boot=200):
+    """The geometry read-out with a progress bar naming each step; warnings become one line each."""
+    from ..geometry import GEOMETRY_STEPS, describe_geometry
+
+    steps = GEOMETRY_STEPS if view else GEOMETRY_STEPS[:-1]
+    cb, close = steps_bar(steps, progress, "geometry")
+    with captured_warnings():
+        try:
+            geo = describe_geometry(X, y, dimension=dimension, radius=radius, embed=view, seed=seed, callback=cb,
+                                    n_boot=n_boot)
+        finally:
+            close()
+    return geo
+
+
+def run(args) -> int:
+    from ..plots import plot_chart_counts, plot_dimension_profile, plot_spectra
+
+    table = load(args, target_required=False)
+    out = out_dir(args.out)
+    geo = describe(table.X, table.y, seed=args.seed, view=not args.no_view, dimension=args.dimension,
+                   radius=args.radius, progress=not args.quiet)
+    say(str(geo))
+    write_json(os.path.join(out, "geometry.json"), geo.to_dict())
+    figs = {"dimension_profile.png": plot_dimension_profile(geo.dimension), "chart_spectra.png": plot_spectra(geo.atlas),
+            "chart_counts.png": plot_chart_counts(geo.chart_counts)}
+    if geo.embedding is not None:
+        from ..plots import plot_embedding
+
+        rows = geo.embedding.rows
+        vals = geo.target[rows] if geo.target is not None else geo.assignments[rows]
+        figs["view.png"] = plot_embedding(geo.embedding, vals, kind="target" if geo.target is not None else "chart")
+    import matplotlib.pyplot as plt
+
+    for name, fig in figs.items():
+        fig.savefig(os.path.join(out, name), dpi=110, bbox_inches="tight")
+        plt.close(fig)
+    say(f"\nwritten: {os.path.join(out, 'geometry.json')} and {len(figs)} figures in {out}")
+    return 0
