@@ -80,7 +80,7 @@ def test_id_column_is_refused_with_the_flag_that_fixes_it(tmp_path, name):
     table = load_table(path, target="y", drop=[name])
     assert table.feature_names == ["a", "b"] and table.X.shape == (20, 2)
     # naming the features keeps what the user names
-    assert load_table(path, target="y", columns=[name, "a"]).feature_names == [name, "a"]
+    assert load_table(path, target="y", features=[name, "a"]).feature_names == [name, "a"]
 
 
 def test_numeric_column_not_named_like_an_id_is_kept(tmp_path):

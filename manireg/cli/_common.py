@@ -90,7 +90,7 @@ def load(args, *, target_required: bool):
     target = getattr(args, "target", None)
     if target_required and target is None:
         raise UsageError("pass --target COL: the column to learn.")
-    table = load_table(args.data, target=target, columns=getattr(args, "features", None), drop=getattr(args, "drop", None))
+    table = load_table(args.data, target=target, features=getattr(args, "features", None), drop=getattr(args, "drop", None))
     say(f"data: {table.n_samples:,} rows x {table.X.shape[1]} feature columns from {args.data}"
         + (f"; target '{table.target_name}'" if table.target_name else ""))
     return table

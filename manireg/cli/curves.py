@@ -17,11 +17,11 @@ def add_parser(sub):
                        "finished cells are read from the store, only missing ones are trained.")
     add_data_options(p, target_required=True)
     g = p.add_mutually_exclusive_group()
-    g.add_argument("--smoothness", type=float, help="Hölder smoothness s of the target (default 1)")
+    g.add_argument("--smoothness", type=float, metavar="s", help="Hölder smoothness s of the target (default 1)")
     g.add_argument("--smoothness-range", type=float, nargs=2, metavar=("A", "B"), help="a range of s: predictions become intervals")
-    p.add_argument("--dimension", type=float, help="intrinsic dimension d (default: the geometry read-out's consensus)")
+    p.add_argument("--dimension", type=float, metavar="d", help="intrinsic dimension d (default: the geometry read-out's consensus)")
     p.add_argument("--sizes", type=int, nargs="+", metavar="N", help="training sizes (default: a geometric grid)")
-    p.add_argument("--repeats", type=int, default=5, help="repeats per size (default: %(default)s)")
+    p.add_argument("--repeats", type=int, default=5, metavar="R", help="repeats per size (default: %(default)s)")
     p.add_argument("--learners", nargs="+", default=["net", "knn"], choices=["net", "knn", "kernel_ridge"],
                    metavar="LEARNER", help="net, knn, kernel_ridge (default: net knn)")
     p.add_argument("--width-multipliers", type=float, nargs="+", metavar="M",

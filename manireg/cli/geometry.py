@@ -12,8 +12,8 @@ HELP = "intrinsic dimension, charts, reach and curvature of a data file"
 def add_parser(sub):
     p = sub.add_parser("geometry", help=HELP, description=HELP + ".")
     add_data_options(p, target_required=False)
-    p.add_argument("--dimension", type=int, help="intrinsic dimension for charts and reach (default: the rounded consensus)")
-    p.add_argument("--radius", type=float, help="chart radius (default: the rule's radius, from the reach estimate)")
+    p.add_argument("--dimension", type=int, metavar="d", help="intrinsic dimension for charts and reach (default: the rounded consensus)")
+    p.add_argument("--radius", type=float, metavar="r", help="chart radius (default: the rule's radius, from the reach estimate)")
     p.add_argument("--no-view", action="store_true", help="skip the 2-D view of the data")
     add_run_options(p, "manireg-out/geometry")
     p.set_defaults(func=run)

@@ -11,9 +11,9 @@ HELP = "the network the sizing rules give (depth, width, nonzero budget) and the
 
 def add_parser(sub):
     p = sub.add_parser("size", help=HELP, description=HELP + ".")
-    p.add_argument("--dimension", type=float, required=True, help="intrinsic dimension d")
-    p.add_argument("--smoothness", type=float, required=True, help="Hölder smoothness s of the target")
-    p.add_argument("--ambient-dim", type=int, help="ambient dimension D (input width; also gives the ambient exponent)")
+    p.add_argument("--dimension", type=float, metavar="d", required=True, help="intrinsic dimension d")
+    p.add_argument("--smoothness", type=float, metavar="s", required=True, help="Hölder smoothness s of the target")
+    p.add_argument("--ambient-dim", type=int, metavar="D", help="ambient dimension D (input width; also gives the ambient exponent)")
     p.add_argument("--sizes", type=float, nargs="+", metavar="N", help="sample sizes of the table (default 1e2 1e3 1e4 1e5)")
     p.add_argument("--sizing", nargs="+", metavar="NAME=VALUE", help="sizing constants, e.g. c_width=4 width_max=1024")
     p.set_defaults(func=run)

@@ -31,7 +31,7 @@ class Table(ResultMixin):
         return self.X.shape[0]
 
 
-def load_table(path, target: str | int | None = None, *, columns=None, drop=None) -> Table:
+def load_table(path, target: str | int | None = None, *, features=None, drop=None) -> Table:
     """Load ``path`` into float arrays.
 
     Parameters
@@ -41,7 +41,7 @@ def load_table(path, target: str | int | None = None, *, columns=None, drop=None
         or named 1-D arrays used as columns) or ``.npy`` (a 2-D array; columns are ``c0, c1, ...``).
     target : column name (or integer position for ``.npy``), optional
         The regression target; ``None`` loads features only.
-    columns : list of column names, optional
+    features : list of column names, optional
         Feature columns to keep (default: every column but the target and ``drop``). Command line:
         ``--features COL ...``.
     drop : list of column names, optional
@@ -52,7 +52,7 @@ def load_table(path, target: str | int | None = None, *, columns=None, drop=None
     ValueError (DataValidationError)
         Missing file, unknown format, empty file, missing target column, non-numeric columns, NaN or inf
         (with count and location), fewer than 2 rows, mismatched lengths, a column that looks like a row
-        identifier (named like an ID and holding distinct integers) among the features unless ``columns``
+        identifier (named like an ID and holding distinct integers) among the features unless ``features``
         names it. A misspelt column name gets the closest existing names suggested. Constant columns only
         warn.
     """
@@ -71,11 +71,11 @@ def load_table(path, target: str | int | None = None, *, columns=None, drop=None
         raise DataValidationError(f"'{p}' is empty (0 bytes). Write the data into it first.")
     if ext in (".csv", ".parquet", ".pq"):
         frame = _read_frame(p, ext)
-        names, X, y, tname = _split_frame(frame, target, columns, p, drop)
+        names, X, y, tname = _split_frame(frame, target, features, p, drop)
     elif ext == ".npz":
         if drop:
             raise DataValidationError("drop= (--drop) selects columns of a CSV or Parquet table; slice the arrays of an .npz/.npy file instead.")
-        names, X, y, tname = _read_npz(p, target, columns)
+        names, X, y, tname = _read_npz(p, target, features)
     else:
         names, X, y, tname = _read_npy(p, target)
     X, y = _validate(X, y, names, tname, p)
@@ -157,7 +157,7 @@ def _split_frame(frame, target, columns, p, drop=None):
         raise DataValidationError(
             f"non-numeric feature column(s) in '{p}': {_preview(nonnum)}. Leave them out with --drop "
             f"{' '.join(nonnum[:3])} (drop=[...] in Python), choose the features with --features COL ... "
-            "(columns=[...]), or encode them as numbers."
+            "(features=[...]), or encode them as numbers."
         )
     if columns is None:
         ids = [c for c in feats if _looks_like_id(c, frame[c])]
@@ -165,7 +165,7 @@ def _split_frame(frame, target, columns, p, drop=None):
             raise DataValidationError(
                 f"column(s) {_preview(ids)} in '{p}' look like row identifiers (named like an ID, distinct integers) "
                 f"and would be used as coordinates. Leave them out with --drop {' '.join(ids[:3])} (drop=[...] in "
-                "Python), or name every feature with --features COL ... (columns=[...]) to keep them."
+                "Python), or name every feature with --features COL ... (features=[...]) to keep them."
             )
     if y is not None and not pd.api.types.is_numeric_dtype(y):
         raise DataValidationError(f"target column '{tname}' in '{p}' is not numeric. A regression target must be numbers.")
@@ -174,7 +174,7 @@ def _split_frame(frame, target, columns, p, drop=None):
     return feats, X, yv, tname
 
 
-def _read_npz(p, target, columns):
+def _read_npz(p, target, features):
     try:
         with np.load(p, allow_pickle=False) as z:
             arrays = {k: z[k] for k in z.files}
@@ -192,7 +192,7 @@ def _read_npz(p, target, columns):
             raise DataValidationError(f"target array '{tkey}' is not in '{p}'; arrays are: {_preview(list(arrays))}.")
         y = None if tkey is None else arrays[tkey]
         if columns is not None:
-            raise DataValidationError("columns= selects named 1-D arrays; this .npz holds one 2-D array 'X'. Slice X instead.")
+            raise DataValidationError("features= selects named 1-D arrays; this .npz holds one 2-D array 'X'. Slice X instead.")
         return names, _numeric(X, p, "X"), (None if y is None else _numeric(y, p, str(tkey))), (None if tkey is None else str(tkey))
     # named 1-D arrays as columns
     if target is not None and target not in arrays:

@@ -1,0 +1,63 @@
+"""One name per concept: every command-line option is in the vocabulary table of docs/vocabulary.md, and the
+command line uses no retired name."""
+
+import argparse
+import os
+import re
+
+import pytest
+
+from manireg.cli import RENAMED, build_parser
+
+DOC = os.path.join(os.path.dirname(__file__), "..", "docs", "vocabulary.md")
+
+
+def _table():
+    rows = []
+    for line in open(DOC, encoding="utf-8"):
+        if line.startswith("|") and not line.startswith("|---") and "concept" not in line.split("|")[1]:
+            cells = [c.strip() for c in line.strip().strip("|").split("|")]
+            rows.append(cells)
+    return rows
+
+
+def _cli_options():
+    parser = build_parser()
+    out = {}
+    for action in parser._actions:
+        if isinstance(action, argparse._SubParsersAction):
+            for name, sub in action.choices.items():
+                for a in sub._actions:
+                    for flag in a.option_strings:
+                        if flag.startswith("--"):
+                            out.setdefault(flag, set()).add(name)
+                    if not a.option_strings:
+                        out.setdefault(a.dest.upper(), set()).add(name)
+        for flag in action.option_strings:
+            if flag.startswith("--"):
+                out.setdefault(flag, set()).add("manireg")
+    return out
+
+
+def test_every_cli_option_is_in_the_vocabulary():
+    listed = set()
+    for row in _table():
+        listed |= set(re.findall(r"`(--[a-z-]+|[A-Z]+)`", row[2]))
+    missing = {flag: sorted(where) for flag, where in _cli_options().items() if flag not in listed}
+    assert not missing, f"options missing from docs/vocabulary.md: {missing}"
+
+
+def test_no_retired_name_is_an_option():
+    options = _cli_options()
+    for old in RENAMED:
+        assert old not in options, old
+    commands = {a for act in build_parser()._actions if isinstance(act, argparse._SubParsersAction) for a in act.choices}
+    assert commands == {"demo", "geometry", "curves", "size", "plan", "report"}
+
+
+def test_vocabulary_rows_name_one_concept_each():
+    rows = _table()
+    concepts = [r[0] for r in rows]
+    assert len(concepts) == len(set(concepts))
+    flags = [f for r in rows for f in re.findall(r"`(--[a-z-]+)`", r[2])]
+    assert len(flags) == len(set(flags)), "an option listed for two concepts"
