@@ -61,3 +61,10 @@ def test_vocabulary_rows_name_one_concept_each():
     assert len(concepts) == len(set(concepts))
     flags = [f for r in rows for f in re.findall(r"`(--[a-z-]+)`", r[2])]
     assert len(flags) == len(set(flags)), "an option listed for two concepts"
+
+
+def test_cli_doc_lists_every_option():
+    text = open(os.path.join(os.path.dirname(DOC), "cli.md"), encoding="utf-8").read()
+    missing = [flag for flag in _cli_options() if flag.startswith("--") and flag not in ("--help", "--version")
+               and f"`{flag}" not in text]
+    assert not missing, f"docs/cli.md does not describe {missing}"
