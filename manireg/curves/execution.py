@@ -36,6 +36,7 @@ from __future__ import annotations
 
 import datetime
 import os
+import sys
 import traceback
 
 from manireg._threads import torch_threads as _torch_threads
@@ -146,7 +147,8 @@ def _progress(total, initial, enabled, desc):
         return None
     from tqdm.auto import tqdm
 
-    return tqdm(total=total, initial=initial, desc=desc, unit="cell", dynamic_ncols=True)
+    return tqdm(total=total, initial=initial, desc=f"campaign '{desc}'", dynamic_ncols=True, file=sys.stderr,
+                bar_format="{desc}: {n_fmt}/{total_fmt} cells {bar} [{elapsed}<{remaining}]")
 
 
 def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=None, progress=True, *,
@@ -203,7 +205,7 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
     summary = RunSummary(total=total, skipped=total - len(pending), ran=0, failed=0, executor=executor)
     if not pending:
         return summary
-    bar = _progress(total, total - len(pending), progress, getattr(data, "label", "campaign"))
+    bar = _progress(total, total - len(pending), progress, getattr(data, "name", "campaign"))
 
     def stopped():
         return stop is not None and stop.is_set()
