@@ -104,21 +104,22 @@ def learner_style(name: str) -> dict:
 # ----------------------------------------------------------------------------------------- estimators
 #: Fixed colour, marker and full name per dimension estimator (as in ``DimensionReport.estimates``).
 ESTIMATOR_STYLES = {
-    "mle": {"color": "#1d7a66", "marker": "o", "label": "maximum likelihood (Levina-Bickel)"},
-    "twonn": {"color": "#d4683a", "marker": "s", "label": "two nearest neighbours (TwoNN)"},
-    "lpca": {"color": "#9079c9", "marker": "^", "label": "local PCA"},
-    "corr": {"color": "#d8b43c", "marker": "D", "label": "correlation dimension"},
-    "consensus": {"color": INK, "marker": "*", "label": "consensus"},
+    "mle": {"color": "#1d7a66", "marker": "o", "label": "maximum likelihood (Levina-Bickel)", "short": "likelihood"},
+    "twonn": {"color": "#d4683a", "marker": "s", "label": "two nearest neighbours (TwoNN)", "short": "TwoNN"},
+    "lpca": {"color": "#9079c9", "marker": "^", "label": "local PCA", "short": "local PCA"},
+    "corr": {"color": "#d8b43c", "marker": "D", "label": "correlation dimension", "short": "correlation"},
+    "consensus": {"color": INK, "marker": "*", "label": "consensus", "short": "consensus"},
 }
 
 
 def estimator_style(name: str) -> dict:
-    """Colour, marker and full name of a dimension estimator; unknown names get a reserve entry."""
+    """Colour, marker, full name (``label``) and ``short`` name of a dimension estimator; unknown names get a
+    reserve entry."""
     name = str(name)
     if name in ESTIMATOR_STYLES:
         return dict(ESTIMATOR_STYLES[name], name=name)
     entry = RESERVE_STYLES[zlib.crc32(name.encode("utf-8")) % len(RESERVE_STYLES)]
-    return dict(entry, label=name, name=name)
+    return dict(entry, label=name, short=name, name=name)
 
 
 # ------------------------------------------------------------------------------------ reference lines
