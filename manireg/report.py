@@ -1,7 +1,8 @@
 """One self-contained HTML report per campaign (figures embedded as PNG) and a ``summary.json`` beside it.
 
 The report draws only from result objects (their ``to_dict()``/``to_frame()`` and the figure functions in
-:mod:`manireg.plots`); it never recomputes a number.
+:mod:`manireg.plots`); it never recomputes a number. Colours, verdict badges, column names and number
+formats come from :mod:`manireg.style`.
 """
 
 from __future__ import annotations
@@ -15,14 +16,15 @@ import os
 import platform
 from dataclasses import dataclass, field
 
+from . import style
 from ._results import to_jsonable
 
 __all__ = ["ReportSection", "package_versions", "write_report", "compose_report", "exponent_table_frame", "ASYMPTOTIC_NOTE"]
 
 ASYMPTOTIC_NOTE = (
     "Predicted rates are asymptotic statements: the theory bounds the error by C n^(-2s/(2s+d)) times log "
-    "factors for n large enough, with constants it does not give. A predicted slope is a reference line, not a "
-    "forecast of the error at any particular n, and an observed exponent is quoted only with its interval and "
+    "factors for n large enough, with constants it does not give. A predicted exponent is a reference line, not "
+    "a forecast of the error at any particular n, and a measured exponent is quoted only with its interval and "
     "its verdict."
 )
 
@@ -35,6 +37,7 @@ class ReportSection:
     paragraphs: list = field(default_factory=list)
     tables: list = field(default_factory=list)  # (caption, DataFrame)
     figures: list = field(default_factory=list)  # (name, matplotlib Figure, caption)
+    verdicts: list = field(default_factory=list)  # (learner, verdict, exponent text, reason): shown with badges
 
 
 def package_versions() -> dict:
@@ -56,27 +59,116 @@ def _png(fig) -> bytes:
     return buf.getvalue()
 
 
+_PERCENT_COLUMNS = ("relative_error",)
+
+
+def _is_num(v) -> bool:
+    return style._is_number(v) and not isinstance(v, bool)
+
+
+def _cell(col, v, numeric_column: bool) -> tuple:
+    """(html, css class) of one table cell; numbers align right only in all-number columns."""
+    if col == "verdict":
+        return style.badge_html(v), "lbl nw"
+    if col in _PERCENT_COLUMNS and _is_num(v) and v == v:
+        return html.escape(f"{100 * v:+.1f}%"), "num"
+    text = style.fmt_value(v)
+    if numeric_column:
+        return html.escape(text), "num"
+    return html.escape(text), ("lbl nw" if len(text) <= 24 else "lbl")
+
+
 def _table_html(frame, max_rows: int = 60) -> str:
+    """A table with plain column names (:func:`manireg.style.plain_label`) and formatted numbers."""
+    if frame is None or len(frame) == 0:
+        return "<p class='mr-none'>none</p>"
     shown = frame.head(max_rows)
-    text = shown.to_html(index=False, float_format=lambda v: f"{v:.4g}", na_rep="-", border=0, classes="tbl", escape=True)
+    cols = list(shown.columns)
+    numeric = {c: all(_is_num(v) or v is None for v in shown[c]) and any(_is_num(v) for v in shown[c]) for c in cols}
+    head = "".join(f"<th class='{'num' if numeric[c] else 'lbl'}'>{html.escape(style.plain_label(c))}</th>" for c in cols)
+    body = []
+    for rec in shown.itertuples(index=False, name=None):
+        cells = [_cell(c, v, numeric[c]) for c, v in zip(cols, rec)]
+        body.append("<tr>" + "".join(f"<td class='{cls}'>{text}</td>" for text, cls in cells) + "</tr>")
+    text = f"<div class='mr-scroll'><table class='mr-table'><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table></div>"
     if len(frame) > max_rows:
-        text += f"<p class='note'>{len(frame) - max_rows} more rows in summary.json.</p>"
+        text += f"<p class='mr-note'>{len(frame) - max_rows} more rows in summary.json.</p>"
     return text
 
 
-_CSS = """
-body{font-family:system-ui,-apple-system,Segoe UI,sans-serif;max-width:1100px;margin:2em auto;color:#222;line-height:1.45}
-h1{font-size:1.6em}h2{border-bottom:1px solid #ccc;padding-bottom:.2em;margin-top:1.8em}
-table.tbl{border-collapse:collapse;font-size:.85em;margin:.6em 0}table.tbl td,table.tbl th{padding:.2em .6em;border-bottom:1px solid #eee;text-align:right}
-table.tbl th{background:#f4f4f4}figure{margin:1em 0}figcaption{font-size:.85em;color:#555}
-.note{font-size:.9em;color:#555}.warn{background:#fff4e0;border-left:4px solid #e0a030;padding:.4em .8em}
+def _css() -> str:
+    band = "".join(f"{v['color']} {100 * i / 5:.0f}% {100 * (i + 1) / 5:.0f}%," for i, v in enumerate(style.LEARNER_STYLES.values()))
+    return f"""
+:root{{--ink:{style.INK};--paper:{style.PAPER};--muted:{style.MUTED};--rule:{style.RULE};--accent:{style.ACCENT};
+--warn:{style.WARNING};--warn-bg:{style.STATUS['paused_bg']};--error:{style.ERROR}}}
+*{{box-sizing:border-box}}
+body{{margin:0;background:var(--paper);color:var(--ink);font:15px/1.5 "Source Sans 3","Fira Sans","DejaVu Sans",sans-serif}}
+.mr-band{{background:#1b2538;color:#eef1f6;padding:1.1em 2em 1.2em;border-bottom:5px solid;border-image:linear-gradient(90deg,{band[:-1]}) 1}}
+.mr-band .mr-mark{{font:600 .78em/1 "DejaVu Sans Mono",monospace;letter-spacing:.18em;text-transform:uppercase;color:#a9b6cc}}
+.mr-band h1{{margin:.25em 0 .6em;font-size:1.45em;font-weight:600;letter-spacing:.01em}}
+.mr-band dl{{display:flex;flex-wrap:wrap;gap:.4em 2.2em;margin:0}}
+.mr-band dl div{{min-width:8em}}.mr-band dt{{font-size:.72em;text-transform:uppercase;letter-spacing:.12em;color:#a9b6cc}}
+.mr-band dd{{margin:0;font-size:.92em;color:#ffffff}}
+main{{max-width:1080px;margin:0 auto;padding:1.2em 2em 3em}}
+section{{margin:1.6em 0 0;padding-top:.2em}}
+h2{{display:flex;align-items:baseline;gap:.6em;font-size:1.12em;margin:0 0 .6em;color:var(--ink)}}
+h2 .mr-num{{font:600 .8em "DejaVu Sans Mono",monospace;color:#fff;background:var(--accent);padding:.1em .45em;border-radius:2px}}
+h2::after{{content:"";flex:1;border-bottom:1px dashed var(--rule)}}
+p{{margin:.45em 0;max-width:72em}}
+.mr-caption{{font-weight:600;font-size:.9em;margin:1em 0 .3em;color:#34404f}}
+.mr-note{{font-size:.88em;color:var(--muted)}}.mr-none{{color:var(--muted);font-style:italic}}
+.mr-warn{{background:var(--warn-bg);border-left:3px solid var(--warn);padding:.45em .9em;border-radius:0 3px 3px 0}}
+.mr-scroll{{overflow-x:auto}}
+table.mr-table{{border-collapse:collapse;font-size:.86em;margin:.2em 0 .8em;background:#fff;border:1px solid var(--rule)}}
+.mr-table th{{text-align:left;font-weight:600;padding:.35em .75em;border-bottom:2px solid var(--ink);background:#f1efe9;vertical-align:bottom;max-width:11em}}
+.mr-table th.num{{text-align:right}}
+.mr-table td{{padding:.3em .75em;border-top:1px solid #ebe8e1;vertical-align:top}}
+.mr-table td.num{{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}}
+.mr-table td.lbl{{text-align:left}}.mr-table td.nw{{white-space:nowrap}}
+.mr-verdicts{{list-style:none;padding:0;margin:.5em 0 1em}}
+.mr-verdicts li{{display:grid;grid-template-columns:12em 1fr;gap:.2em 1em;padding:.45em .2em;border-top:1px solid #ebe8e1}}
+.mr-verdicts .mr-who{{font-weight:600}}.mr-verdicts .mr-why{{grid-column:2;font-size:.9em;color:var(--muted)}}
+.mr-badge{{display:inline-flex;align-items:center;gap:.35em;padding:.05em .55em .05em .25em;border:1.5px solid;border-radius:3px;
+background:#fff;font-size:.86em;font-weight:600;white-space:nowrap}}
+.mr-badge-icon{{flex:none}}
+figure{{margin:1.2em 0;background:#fff;border:1px solid var(--rule);padding:.8em;display:inline-block;max-width:100%}}
+figure img{{display:block;max-width:100%}}
+figcaption{{font-size:.86em;color:var(--muted);border-top:1px solid #ebe8e1;margin-top:.6em;padding-top:.45em;max-width:60em}}
 """
 
 
-def write_report(out_dir: str, title: str, sections: list, summary: dict, *, save_png: bool = True) -> dict:
+def _header_items(summary: dict, campaign_name=None, header=None) -> list:
+    """(label, text) pairs of the header band: data, campaign, date, versions; missing ones are left out."""
+    items = []
+    data = summary.get("data") or {}
+    if data.get("source"):
+        items.append(("data", str(data["source"])))
+    if campaign_name is None:
+        part = summary.get("campaign")
+        if isinstance(part, dict) and part.get("name"):
+            campaign_name = part["name"]
+    if campaign_name:
+        items.append(("campaign", str(campaign_name)))
+    items.append(("written", _dt.datetime.now().strftime("%Y-%m-%d %H:%M")))
+    versions = summary.get("versions") or {}
+    shown = [f"{name} {versions[name]}" for name in ("manireg", "numpy", "torch") if versions.get(name)]
+    if shown:
+        items.append(("versions", " \u00b7 ".join(shown)))
+    for k, v in (header or {}).items():
+        items = [(a, b) for a, b in items if a != k]
+        if v is not None:
+            items.append((k, str(v)))
+    return items
+
+
+def write_report(out_dir: str, title: str, sections: list, summary: dict, *, save_png: bool = True,
+                 campaign_name: str | None = None, header: dict | None = None) -> dict:
     """Write ``report.html`` (self-contained), ``summary.json`` and (optionally) ``figures/*.png``.
 
-    Returns a dict with the paths written. ``summary`` must be JSON-ready (NaN is written as null).
+    The page opens with a header band: data source, campaign name, date and the manireg, numpy and torch
+    versions, taken from ``summary`` (``campaign_name`` and ``header`` override or add entries; an entry
+    with no value is left out). Returns a dict with the paths written. ``summary`` must be JSON-ready (NaN
+    is written as null).
     """
     os.makedirs(out_dir, exist_ok=True)
     fig_dir = os.path.join(out_dir, "figures")
@@ -84,20 +176,30 @@ def write_report(out_dir: str, title: str, sections: list, summary: dict, *, sav
         os.makedirs(fig_dir, exist_ok=True)
     import matplotlib.pyplot as plt
 
-    parts = [f"<!doctype html><html><head><meta charset='utf-8'><title>{html.escape(title)}</title>",
-             f"<style>{_CSS}</style></head><body>", f"<h1>{html.escape(title)}</h1>",
-             f"<p class='note'>Written {_dt.datetime.now().isoformat(timespec='seconds')} by manireg. "
-             "Numbers: summary.json beside this file.</p>",
-             f"<p class='warn'>{html.escape(ASYMPTOTIC_NOTE)}</p>"]
+    band = "".join(f"<div><dt>{html.escape(k)}</dt><dd>{html.escape(v)}</dd></div>"
+                   for k, v in _header_items(summary, campaign_name, header))
+    parts = [f"<!doctype html><html lang='en'><head><meta charset='utf-8'><title>{html.escape(title)}</title>",
+             "<meta name='viewport' content='width=device-width,initial-scale=1'>",
+             f"<style>{_css()}</style></head><body>",
+             f"<header class='mr-band'><div class='mr-mark'>manireg report</div><h1>{html.escape(title)}</h1>"
+             f"<dl>{band}</dl></header><main>",
+             "<p class='mr-note'>Every number on this page is also in summary.json beside this file.</p>",
+             f"<p class='mr-warn'>{html.escape(ASYMPTOTIC_NOTE)}</p>"]
     figure_files = []
-    for sec in sections:
-        parts.append(f"<h2>{html.escape(sec.title)}</h2>")
+    for i, sec in enumerate(sections, start=1):
+        parts.append(f"<section><h2><span class='mr-num'>{i:02d}</span>{html.escape(sec.title)}</h2>")
         for p in sec.paragraphs:
-            cls = " class='warn'" if p.startswith("Warning") or p.startswith("Not measured") else ""
+            cls = " class='mr-warn'" if p.startswith("Warning") or p.startswith("Not measured") else ""
             parts.append(f"<p{cls}>{html.escape(p)}</p>")
+        if sec.verdicts:
+            items = "".join(
+                f"<li><span class='mr-who'>{html.escape(str(who))}</span><span>{style.badge_html(verdict)} "
+                f"{html.escape(text)}</span><span class='mr-why'>{html.escape(reason)}</span></li>"
+                for who, verdict, text, reason in sec.verdicts)
+            parts.append(f"<ul class='mr-verdicts'>{items}</ul>")
         for caption, frame in sec.tables:
             if caption:
-                parts.append(f"<p><b>{html.escape(caption)}</b></p>")
+                parts.append(f"<p class='mr-caption'>{html.escape(caption)}</p>")
             parts.append(_table_html(frame))
         for name, fig, caption in sec.figures:
             data = _png(fig)
@@ -108,9 +210,10 @@ def write_report(out_dir: str, title: str, sections: list, summary: dict, *, sav
                     fh.write(data)
             figure_files.append(fname)
             b64 = base64.b64encode(data).decode("ascii")
-            parts.append(f"<figure id='fig-{html.escape(name)}'><img alt='{html.escape(caption)}' src='data:image/png;base64,{b64}' style='max-width:100%'>"
+            parts.append(f"<figure id='fig-{html.escape(name)}'><img alt='{html.escape(caption)}' src='data:image/png;base64,{b64}'>"
                          f"<figcaption>{html.escape(caption)}</figcaption></figure>")
-    parts.append("</body></html>")
+        parts.append("</section>")
+    parts.append("</main></body></html>")
     html_path = os.path.join(out_dir, "report.html")
     with open(html_path, "w", encoding="utf-8") as fh:
         fh.write("\n".join(parts))
@@ -123,23 +226,25 @@ def write_report(out_dir: str, title: str, sections: list, summary: dict, *, sav
     return {"html": html_path, "summary": json_path, "figures": [os.path.join(fig_dir, f) for f in figure_files] if save_png else []}
 
 
-def _text(v) -> str:
-    """A value for a report table: floats with 4 significant digits, everything else as text."""
-    if isinstance(v, float):
-        return f"{v:.4g}"
-    return str(v)
-
-
 def _theory_span(t):
     if t is None:
-        return None
+        return "none"
     lo, hi = t
     return f"{lo:.3f}" if lo == hi else f"{lo:.3f} to {hi:.3f}"
 
 
+def _implied(t, none_when) -> str:
+    if t is None or none_when(t):
+        return "none"
+    return f"{style.fmt_number(t[0])} to {style.fmt_number(t[1])}"
+
+
 def exponent_table_frame(fits):
-    """The exponent table of the report: per learner the observed exponent with its interval and verdict
-    beside the predicted, ambient and implied values (never an exponent alone)."""
+    """The exponent table of the report: per learner the measured exponent with its interval and verdict
+    beside the predicted, ambient and implied values (never an exponent alone). Values are formatted text;
+    an implied value that does not exist (an exponent of 1 or more) reads "none", as in ``str(fit)``."""
+    import math
+
     import pandas as pd
 
     rows = []
@@ -147,23 +252,48 @@ def exponent_table_frame(fits):
         lo, hi = f.interval
         rows.append({
             "learner": f.learner,
-            "observed exponent": f.exponent,
-            f"{int(round(100 * f.level))}% interval": f"[{lo:.3f}, {hi:.3f}]",
+            "exponent": style.fmt_number(f.exponent),
+            f"{int(round(100 * f.level))}% interval": style.fmt_interval(lo, hi),
             "verdict": f.verdict,
-            "predicted 2s/(2s+d)": _theory_span(f.predicted_exponent),
-            "ambient 2s/(2s+D)": _theory_span(f.ambient_exponent),
-            "implied d (given s)": None if f.implied_dimension is None else f"{f.implied_dimension[0]:.3g} to {f.implied_dimension[1]:.3g}",
-            "implied s (given d)": None if f.implied_smoothness is None else f"{f.implied_smoothness[0]:.3g} to {f.implied_smoothness[1]:.3g}",
-            "floor": f"{f.floor:.3g} ({f.floor_source})",
+            "predicted exponent 2s/(2s+d)": _theory_span(f.predicted_exponent),
+            "ambient exponent 2s/(2s+D)": _theory_span(f.ambient_exponent),
+            "implied d (given s)": _implied(f.implied_dimension, lambda t: t[1] == 0.0),
+            "implied s (given d)": _implied(f.implied_smoothness, lambda t: t[0] == math.inf),
+            "error floor": f"{style.fmt_number(f.floor)} ({f.floor_source})",
             "repeats": f.n_repeats,
         })
     return pd.DataFrame(rows)
 
 
+def _key_figures(frame):
+    """The geometry's key figures with the N(r) slope given as a positive dimension-like diagnostic."""
+    frame = frame.copy()
+    for i, q in enumerate(frame["quantity"]):
+        if q == "N(r) slope":
+            v = frame.at[frame.index[i], "value"]
+            frame.at[frame.index[i], "quantity"] = "N(r) dimension-like slope (diagnostic, no interval)"
+            frame.at[frame.index[i], "value"] = None if v is None else -float(v)
+    return frame
+
+
+def _estimates(frame):
+    """Dimension estimates with the estimators' full names."""
+    frame = frame.copy()
+    if "estimator" in frame:
+        frame["estimator"] = [style.estimator_style(e)["label"] for e in frame["estimator"]]
+    return frame
+
+
+def _items(mapping: dict, key: str):
+    import pandas as pd
+
+    return pd.DataFrame([(style.plain_label(k), style.fmt_value(v)) for k, v in mapping.items()], columns=[key, "value"])
+
+
 def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campaign=None, fits=None, plan=None,
                    plan_note: str | None = None, extrapolation=None, settings: dict | None = None,
                    true_dimension=None):
-    """Turn finished result objects into report sections and the JSON summary.
+    """Turn finished result objects into report sections and the JSON summary of a campaign.
 
     Parameters
     ----------
@@ -188,7 +318,7 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
     summary = {"title": title, "data": data, "settings": settings or {}, "versions": package_versions()}
 
     sec = ReportSection("Data")
-    sec.tables.append(("", pd.DataFrame([(k, _text(v)) for k, v in data.items()], columns=["item", "value"])))
+    sec.tables.append(("", _items(data, "item")))
     sections.append(sec)
 
     if geometry is not None:
@@ -201,7 +331,7 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
                 "Rebuilt from a store: the geometry figures are in the original report; run `manireg geometry` to redraw them.")
             est = pd.DataFrame(dim.get("estimates") or [])
             if len(est):
-                sec.tables.append(("Dimension estimates", est))
+                sec.tables.append(("Dimension estimates", _estimates(est)))
             res = geometry.get("resolution") or {}
             if res.get("verdict"):
                 sec.paragraphs.append(f"Resolution: {res['verdict']}")
@@ -210,8 +340,9 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
             sec.paragraphs.append(f"Resolution: {geometry.resolution.verdict}")
             for w in geometry.dimension.warnings:
                 sec.paragraphs.append(f"Warning: {w}")
-            sec.tables.append(("Dimension estimates (intervals: see the kind column)", geometry.dimension.to_frame()))
-            sec.tables.append(("Key figures", geometry.to_frame()))
+            sec.tables.append(("Dimension estimates (how each interval was made: see the interval column)",
+                               _estimates(geometry.dimension.to_frame())))
+            sec.tables.append(("Key figures", _key_figures(geometry.to_frame())))
             sec.figures.append(("dimension_profile", plots.plot_dimension_profile(geometry.dimension, true_dimension=true_dimension),
                                 "Dimension estimate against neighbourhood scale, with interval bands; noise lifts small scales, curvature large ones."))
             sec.figures.append(("dimension_estimates", plots.plot_dimension_estimates(geometry.dimension, true_dimension=true_dimension),
@@ -219,9 +350,10 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
             sec.figures.append(("chart_spectra", plots.plot_spectra(geometry.atlas),
                                 "Explained-variance spectra of the charts (local PCA): d leading components carry the variance where the tangent picture holds."))
             sec.figures.append(("chart_counts", plots.plot_chart_counts(geometry.chart_counts),
-                                "Charts needed N(r) against radius r; the slope is about -d on a manifold."))
+                                "Charts needed N(r) against radius r; on a manifold N(r) falls like r^-d, so the "
+                                "dimension-like slope is about d (a diagnostic without an interval)."))
             if geometry.reach is not None:
-                sec.figures.append(("reach", plots.plot_reach(geometry.reach),
+                sec.figures.append(("reach", plots.plot_reach(geometry.reach, chart_radius=geometry.atlas.radius),
                                     "Per-point reach values (tangent-based estimator); the estimate is their infimum or the chosen quantile."))
             sec.figures.append(("curvature", plots.plot_curvature(geometry.curvature),
                                 "Largest principal curvature at the chart centres."))
@@ -239,10 +371,11 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
     if sizing is not None:
         sec = ReportSection("Network sizing")
         sec.paragraphs.append(
-            f"Rule for d = {sizing.d:g}, s = {sizing.s:g}, D = {sizing.input_dim}: depth ~ log n, width ~ n^(d/(2s+d)), "
+            f"Rule for d = {sizing.d:g}, s = {sizing.s:g}, D = {getattr(sizing, 'ambient_dim', getattr(sizing, 'input_dim', None))}: "
+            "depth ~ log n, width ~ n^(d/(2s+d)), "
             "nonzero weights ~ n^(d/(2s+d)) log n; constants and bounds are those of SizingConstants.")
         sec.tables.append(("", sizing.to_frame()))
-        sec.paragraphs.extend(f"{k}: {v}" for k, v in sizing.specs[-1].rules.items())
+        sec.paragraphs.extend(f"{style.plain_label(k)}: {v}" for k, v in sizing.specs[-1].rules.items())
         sec.figures.append(("sizing", plots.plot_sizing(sizing), "Parameter count and predicted error against n."))
         summary["sizing"] = sizing.to_frame().to_dict(orient="records")
         sections.append(sec)
@@ -253,29 +386,34 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
         ok = rows[rows["status"] == "ok"] if "status" in rows else rows
         failed = rows[rows["status"] == "failed"] if "status" in rows else rows.iloc[:0]
         sec.paragraphs.append(
-            f"{len(ok)} finished cells ({len(failed)} failed) over sizes {sorted(set(int(v) for v in ok['n']))}, "
-            f"learners {sorted(set(ok['learner']))}; d = {campaign.dimension:g} ({campaign.dimension_source}), s = {campaign.smoothness:g}, D = {campaign.ambient_dim}.")
+            f"Campaign '{campaign.name}': {len(ok)} finished cells ({len(failed)} failed) over sizes "
+            f"{', '.join(str(v) for v in sorted(set(int(v) for v in ok['n'])))}; learners "
+            f"{', '.join(sorted(set(ok['learner'])))}; d = {style.fmt_number(campaign.dimension)} ({campaign.dimension_source}), "
+            f"s = {style.fmt_number(campaign.smoothness)}, D = {style.fmt_number(campaign.ambient_dim)}.")
         if len(failed):
             sec.tables.append(("Failed cells", failed[["learner", "n", "repeat", "error"]]))
         summary["campaign"] = campaign.to_dict()
         summary["rows"] = ok.drop(columns=[c for c in ("config_json",) if c in ok]).to_dict(orient="records")
         if fits is not None and len(fits):
             for f in fits:
-                text = f"{f.learner}: {f.verdict}. {f.verdict_reason}"
-                sec.paragraphs.append(text if f.verdict == "measured" else "Not measured - " + text)
-            sec.tables.append(("Exponents (observed with interval and verdict; predicted; ambient; implied)", exponent_table_frame(fits)))
+                sec.verdicts.append((f.learner, f.verdict, style.exponent_text(f, 3), f.verdict_reason))
+            sec.tables.append(("Exponents (measured, with interval and verdict; predicted; ambient; implied)", exponent_table_frame(fits)))
             slopes = [dict(learner=f.learner, **s) for f in fits for s in f.local_slopes]
             if slopes:
-                sec.tables.append(("Local slopes between successive sizes", pd.DataFrame(slopes)))
+                sec.tables.append(("Local slopes between successive sizes (diagnostic, no interval; positive when the error falls)",
+                                   pd.DataFrame(slopes)))
             limited = [dict(learner=f.learner, **c) for f in fits for c in f.optimisation_limited]
-            sec.tables.append(("Optimisation-limited cells (stopped at a cap, or best step late in the budget)",
-                               pd.DataFrame(limited) if limited else pd.DataFrame({"none": []})))
+            sec.tables.append(("Optimisation-limited cells (stopped at the step or time limit, or best step late in the budget)",
+                               pd.DataFrame(limited) if limited else None))
             summary["exponents"] = {f.learner: f.to_dict() for f in fits}
             summary["optimisation_limited"] = limited
             sec.figures.append(("learning_curves", plots.plot_learning_curves(rows, fits),
-                                "Held-out MSE against n: every repeat (small dots), size means, fitted curve (solid), predicted slope (dashed), fitted floor (dotted), optimisation-limited cells (x)."))
+                                "Test error against n: every repeat (small marks), size means (large marks), fitted curve (solid), "
+                                "predicted exponent (long dashes), ambient exponent (dots), fitted floor (dash-dot), "
+                                "optimisation-limited cells (x)."))
             sec.figures.append(("local_slopes", plots.plot_local_slopes(fits),
-                                "Local slopes of the excess error; a single power law keeps them level inside the interval band."))
+                                "Local slopes of the excess error (a diagnostic without intervals); a single power law keeps "
+                                "them level inside the band of the exponent's interval."))
             if "test_mse_clean" in ok and ok["test_mse_clean"].notna().any():
                 sec.figures.append(("learning_curves_clean", plots.plot_learning_curves(rows, None, metric="test_mse_clean", show_predicted=False,
                                                                                      title="Error against the noise-free target"),
@@ -295,12 +433,18 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
     if extrapolation:
         sec = ReportSection("Extrapolation check")
         sec.paragraphs.append("Each curve is refitted without its largest size and asked to predict it.")
-        sec.tables.append(("", pd.concat([e.to_frame() for e in extrapolation], ignore_index=True)))
+        frames = []
+        for e in extrapolation:
+            frame = e.to_frame()
+            frame.insert(0, "learner", e.learner)
+            frames.append(frame)
+        sec.tables.append(("", pd.concat(frames, ignore_index=True)))
         summary["extrapolation"] = [e.to_dict() for e in extrapolation]
         sections.append(sec)
 
     sec = ReportSection("Settings, seeds and versions")
-    sec.tables.append(("Settings", pd.DataFrame([(k, _text(v)) for k, v in (settings or {}).items()], columns=["setting", "value"])))
-    sec.tables.append(("Versions", pd.DataFrame(list(summary["versions"].items()), columns=["package", "version"])))
+    sec.tables.append(("Settings", _items(settings or {}, "setting")))
+    sec.tables.append(("Versions", pd.DataFrame([(k, v if v is not None else "not installed") for k, v in summary["versions"].items()],
+                                                columns=["package", "version"])))
     sections.append(sec)
     return sections, summary

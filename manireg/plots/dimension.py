@@ -4,18 +4,14 @@ from __future__ import annotations
 
 import numpy as np
 
+from .. import style
+from ._common import new_axes, styled
+
 __all__ = ["plot_dimension_profile", "plot_dimension_estimates"]
 
-_COLORS = {"mle": "C0", "twonn": "C1", "lpca": "C2", "corr": "C3"}
-_LABELS = {"mle": "MLE (Levina-Bickel)", "twonn": "TwoNN", "lpca": "local PCA", "corr": "correlation dim."}
 
-
-def _axes(ax, figsize=(6.0, 4.0)):
-    import matplotlib.pyplot as plt
-
-    if ax is None:
-        fig, ax = plt.subplots(figsize=figsize)
-    return ax.figure, ax
+def _axes(ax, figsize=(6.2, 4.0)):
+    return new_axes(ax, figsize)
 
 
 def _profile_of(obj):
@@ -28,6 +24,7 @@ def _profile_of(obj):
     return profile
 
 
+@styled
 def plot_dimension_profile(profile_or_report, ax=None, *, true_dimension=None, x="scale"):
     """Dimension estimate against neighbourhood scale, one line per estimator, with interval bands.
 
@@ -58,14 +55,15 @@ def plot_dimension_profile(profile_or_report, ax=None, *, true_dimension=None, x
         d = np.asarray(profile.dimension)[mask][order]
         lo = np.asarray(profile.lower, dtype=float)[mask][order]
         hi = np.asarray(profile.upper, dtype=float)[mask][order]
-        color = _COLORS.get(name)
-        ax.plot(xs, d, "o-", color=color, label=_LABELS.get(name, name))
+        st = style.estimator_style(name)
+        color = st["color"]
+        ax.plot(xs, d, "-", marker=st["marker"], ms=5, color=color, label=st["label"])
         if np.all(np.isfinite(lo)) and np.all(np.isfinite(hi)):
-            ax.fill_between(xs, lo, hi, color=color, alpha=0.2, linewidth=0)
+            ax.fill_between(xs, lo, hi, **style.reference_line("band", color))
     if x == "scale" and all(np.isfinite(profile.plateau)):
-        ax.axvspan(profile.plateau[0], profile.plateau[1], color="0.85", zorder=0, label="plateau")
+        ax.axvspan(profile.plateau[0], profile.plateau[1], color="#eceef2", zorder=0, label="plateau")
     if true_dimension is not None:
-        ax.axhline(true_dimension, color="k", linestyle="--", linewidth=1, label=f"true d = {true_dimension:g}")
+        ax.axhline(true_dimension, **style.reference_line("truth"), label=f"true d = {style.fmt_number(true_dimension)}")
     ax.set_xscale("log")
     if x == "scale":  # label the neighbour counts themselves; minor labels like 3x10^0 collide
         from matplotlib.ticker import NullFormatter
@@ -77,10 +75,11 @@ def plot_dimension_profile(profile_or_report, ax=None, *, true_dimension=None, x
     ax.set_xlabel("neighbour count k" if x == "scale" else "median neighbour distance")
     ax.set_ylabel("estimated dimension")
     ax.set_title(f"Dimension profile ({profile.level:.0%} bootstrap bands, n = {profile.n_samples})")
-    ax.legend(loc="best", fontsize="small")
+    ax.legend(loc="best")
     return fig
 
 
+@styled
 def plot_dimension_estimates(report, ax=None, *, true_dimension=None):
     """Per-estimator values with their intervals (where the method gives one) and the consensus line.
 
@@ -103,17 +102,21 @@ def plot_dimension_estimates(report, ax=None, *, true_dimension=None):
     fig, ax = _axes(ax)
     pos = np.arange(len(estimates))
     for i, e in enumerate(estimates):
-        color = _COLORS.get(e.estimator, "C7")
-        ax.bar(i, e.dimension, color=color, alpha=0.6, width=0.6)
+        st = style.estimator_style(e.estimator)
+        ax.bar(i, e.dimension, color=st["color"], alpha=0.55, width=0.6, edgecolor=st["color"], linewidth=1.2)
+        ax.plot([i], [e.dimension], linestyle="none", marker=st["marker"], color=st["color"], ms=7,
+                markeredgecolor="white", markeredgewidth=0.7)
         if np.isfinite(e.lower) and np.isfinite(e.upper):
-            ax.errorbar(i, e.dimension, yerr=[[e.dimension - e.lower], [e.upper - e.dimension]], color="k",
+            ax.errorbar(i, e.dimension, yerr=[[e.dimension - e.lower], [e.upper - e.dimension]], color=style.INK,
                         capsize=4, linewidth=1)
-    ax.axhline(report.consensus, color="k", linewidth=1.5, label=f"consensus {report.consensus:.2f}")
+    cons = style.estimator_style("consensus")
+    ax.axhline(report.consensus, color=cons["color"], linewidth=1.5, label=f"consensus {style.fmt_number(report.consensus)}")
     if true_dimension is not None:
-        ax.axhline(true_dimension, color="k", linestyle="--", linewidth=1, label=f"true d = {true_dimension:g}")
+        ax.axhline(true_dimension, **style.reference_line("truth"), label=f"true d = {style.fmt_number(true_dimension)}")
     ax.set_xticks(pos)
-    ax.set_xticklabels([_LABELS.get(e.estimator, e.estimator) for e in estimates], rotation=15)
+    ax.set_xticklabels([style.estimator_style(e.estimator)["short"] for e in estimates])
+    ax.grid(False, axis="x")
     ax.set_ylabel("estimated dimension")
     ax.set_title(f"Intrinsic dimension by estimator (n = {report.n_samples})")
-    ax.legend(loc="best", fontsize="small")
+    ax.legend(loc="best")
     return fig

@@ -2,32 +2,41 @@
 
 from __future__ import annotations
 
+from .. import style
+from ._common import log_ticks, new_axes, styled
+
 __all__ = ["plot_sizing"]
 
+_COUNT = style.LEARNER_STYLES["net"]["color"]
+_ERROR = "#a0523a"
 
+
+@styled
 def plot_sizing(table, ax=None):
     """Parameter count (left axis) and predicted error n^(-2s/(2s+d)) next to the ambient n^(-2s/(2s+D)) (right axis)."""
-    import matplotlib.pyplot as plt
-
-    if ax is None:
-        fig, ax = plt.subplots(figsize=(6.4, 4.0))
-    else:
-        fig = ax.figure
+    fig, ax = new_axes(ax, (6.6, 4.2))
     f = table.to_frame()
-    ax.plot(f["n"], f["n_parameters"], "o-", color="tab:blue", label="parameters (dense)")
-    ax.plot(f["n"], f["nonzero_budget"], "s--", color="tab:blue", alpha=0.6, label="nonzero budget")
+    D = getattr(table, "ambient_dim", getattr(table, "input_dim", None))
+    ax.plot(f["n"], f["n_parameters"], "-", marker="o", ms=4, color=_COUNT, label="parameters (dense)")
+    ax.plot(f["n"], f["nonzero_budget"], "--", marker="s", ms=4, color=_COUNT, alpha=0.7, label="nonzero weights allowed")
     ax.set_xscale("log")
     ax.set_yscale("log")
     ax.set_xlabel("training samples n")
-    ax.set_ylabel("parameter count", color="tab:blue")
+    ax.set_ylabel("parameter count", color=_COUNT)
     ax2 = ax.twinx()
-    ax2.plot(f["n"], f["predicted_error"], "-", color="tab:red", label=f"n^-{table.exponent:.3f} (intrinsic d={table.d:g})")
-    ax2.plot(f["n"], f["predicted_error_ambient"], ":", color="tab:red", label=f"n^-{table.ambient_exponent:.3f} (ambient D={table.input_dim})")
+    ax2.grid(False)
+    ax2.spines["right"].set_visible(True)
+    ax2.spines["top"].set_visible(False)
+    ax2.plot(f["n"], f["predicted_error"], **style.reference_line("predicted", _ERROR),
+             label=f"{style.predicted_text(table.exponent, 3)}: n^-{table.exponent:.3f} (intrinsic d = {style.fmt_number(table.d)})")
+    ax2.plot(f["n"], f["predicted_error_ambient"], **style.reference_line("ambient"),
+             label=f"ambient exponent {table.ambient_exponent:.3f}: n^-{table.ambient_exponent:.3f} (D = {D})")
     ax2.set_yscale("log")
-    ax2.set_ylabel("predicted error (up to constants)", color="tab:red")
+    ax2.set_ylabel("predicted error (up to constants)", color=_ERROR)
+    log_ticks(ax)
+    log_ticks(ax2, "y")
     h1, l1 = ax.get_legend_handles_labels()
     h2, l2 = ax2.get_legend_handles_labels()
-    ax.legend(h1 + h2, l1 + l2, fontsize=7, loc="upper center")
-    ax.set_title(f"Sizing rule for d={table.d:g}, s={table.s:g}")
-    ax.grid(True, which="both", alpha=0.25)
+    ax.legend(h1 + h2, l1 + l2, loc="upper left", bbox_to_anchor=(0.0, -0.13), borderaxespad=0.0)
+    ax.set_title(f"Sizing rule for d = {style.fmt_number(table.d)}, s = {style.fmt_number(table.s)}")
     return fig
