@@ -21,6 +21,7 @@ def add_parser(sub):
 
 
 def run(args) -> int:
+    from ..style import fmt_number
     from ..theory import SizingConstants, ambient_exponent, regression_exponent, sizing_table
 
     if args.dimension <= 0 or args.smoothness <= 0:
@@ -32,10 +33,16 @@ def run(args) -> int:
     b = regression_exponent(args.dimension, args.smoothness)
     say(f"predicted exponent 2s/(2s+d) = {b:.3f} (d = {args.dimension:g}, s = {args.smoothness:g})"
         + (f"; ambient 2s/(2s+D) = {ambient_exponent(D, args.smoothness):.3f} (D = {D})" if args.ambient_dim else ""))
-    say(f"if the error falls as C n^-{b:.3f}: halving it needs {2 ** (1 / b):.3g}x the samples, a tenth needs "
-        f"{10 ** (1 / b):.3g}x. The constant C needs a measured curve: run `manireg curves`, then `manireg plan`.")
+    say(f"if the error falls as C n^-{b:.3f}: halving it needs {fmt_number(2 ** (1 / b))}x the samples, a tenth needs "
+        f"{fmt_number(10 ** (1 / b))}x. The constant C needs a measured curve: run `manireg curves`, then `manireg plan`.")
     table = sizing_table(args.sizes if args.sizes else [1e2, 1e3, 1e4, 1e5], args.dimension, args.smoothness, D,
                          constants=constants)
+    from .. import style
+
+    frame = table.to_frame()
+    frame.columns = [style.plain_label(c) for c in frame.columns]
     say()
-    say(table.to_frame().to_string(index=False, float_format=lambda v: f"{v:.4g}"))
+    say(frame.to_string(index=False, float_format=lambda v: style.fmt_number(v, 4)))
+    if any(w >= constants.width_max for w in table.to_frame()["width"]):
+        say(f"(widths at {constants.width_max} are held at the cap width_max; pass --sizing width_max=... to raise it)")
     return 0
