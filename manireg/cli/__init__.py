@@ -67,6 +67,12 @@ def main(argv=None) -> int:
         msg = " ".join(str(exc).split())
         print(f"manireg {args.command}: error: {msg}", file=sys.stderr)
         return 2
+    except BrokenPipeError:
+        # the reader went away (e.g. `manireg size ... | head`): stop quietly, as the Python docs advise
+        import os
+
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 1
     except KeyboardInterrupt:
         print(f"manireg {args.command}: interrupted; finished cells are kept in the store, run the same command "
               "again to resume.", file=sys.stderr)
