@@ -174,7 +174,7 @@ def _split_frame(frame, target, columns, p, drop=None):
     return feats, X, yv, tname
 
 
-def _read_npz(p, target, features):
+def _read_npz(p, target, columns):
     try:
         with np.load(p, allow_pickle=False) as z:
             arrays = {k: z[k] for k in z.files}
