@@ -7,13 +7,15 @@ from manireg._lazy import lazy_namespace
 
 _EXPORTS = {
     ".baselines": ["kernel_ridge_regress", "knn_k", "knn_regress"],
+    ".comparison": ["TheoryComparison", "compare_with_theory"],
     ".execution": ["EXECUTORS", "run_cells"],
-    ".fitting": ["ExponentFit", "ExponentTable", "PowerLawFit", "fit_all", "fit_exponent", "fit_power_law",
-                 "local_slopes"],
+    ".fitting": ["ExponentFit", "ExponentTable", "FloorChoice", "PowerLawFit", "exponent_scan", "fit_all",
+                 "fit_exponent", "fit_power_law", "local_slopes", "resolve_floor"],
     ".learners": ["LEARNER_KINDS", "LearnerSpec", "register_learner"],
     ".noise": ["NoiseEstimate", "noise_variance"],
     ".planning": ["CapacityReadout", "ExtrapolationCheck", "SamplePlan", "capacity_readout", "extrapolation_check",
                   "plan_samples"],
+    ".readout": ["ReadOut", "read_out", "working_dimension"],
     ".store": ["ResultStore", "StoreError"],
     ".study": ["Study", "StudyResult"],
     ".sweep": ["Cell", "StudySpec", "default_sizes", "expand"],

@@ -1231,7 +1231,7 @@ def fit_exponent(
         logE = np.log(E)
         noise_var = float(np.nanmean(np.nanvar(logE, axis=0, ddof=1) / np.sum(np.isfinite(logE), axis=0)))
     pl = cv["power law"]
-    beaten = [nm for nm, e in cv.items() if nm != "power law" and e < beaten_ratio * pl and pl > 2.0 * noise_var]
+    beaten = [nm for nm, e in cv.items() if nm != "power law" and e < beaten_ratio * pl and pl > max(2.0 * noise_var, 1e-10)]
     preferred = min(beaten, key=cv.get) if beaten else "power law"
     comparison = [{"model": nm, "description": CURVE_MODELS[nm], "loso_error": e} for nm, e in cv.items()]
 
@@ -1274,7 +1274,7 @@ def _tost(diff, se, margin, eq_level, level, R):
     d_iv = _t_interval(diff, se, level, R - 1) if ok else (float("nan"), float("nan"))
     return {"difference": float(diff), "se": float(se), "interval": eq_iv, "level": eq_level, "margin": margin,
             "equivalent": bool(ok and -margin < eq_iv[0] and eq_iv[1] < margin),
-            "different": bool(ok and (d_iv[0] > 0 or d_iv[1] < 0))}
+            "different": bool(ok and abs(diff) > 1e-9 and (d_iv[0] > 0 or d_iv[1] < 0))}
 
 
 def _verdict(*, sizes, sizes_all, min_decades, sub, equivalence, pct, beaten, cv, preferred, fl, c0, m, floor_shift,
