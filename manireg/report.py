@@ -19,7 +19,8 @@ from dataclasses import dataclass, field
 from . import style
 from ._results import to_jsonable
 
-__all__ = ["ReportSection", "package_versions", "write_report", "compose_report", "exponent_table_frame", "ASYMPTOTIC_NOTE"]
+__all__ = ["ReportSection", "package_versions", "write_report", "compose_report", "exponent_table_frame",
+           "theory_table_frame", "ASYMPTOTIC_NOTE"]
 
 ASYMPTOTIC_NOTE = (
     "Predicted rates are asymptotic statements: the theory bounds the error by C n^(-2s/(2s+d)) times log "
@@ -290,9 +291,32 @@ def _items(mapping: dict, key: str):
     return pd.DataFrame([(style.plain_label(k), style.fmt_value(v)) for k, v in mapping.items()], columns=[key, "value"])
 
 
+def theory_table_frame(fits, theory):
+    """One row per learner: measured exponent with interval and verdict, the learner's reference rate, its
+    predicted interval, and the comparison's verdict with its reason."""
+    import pandas as pd
+
+    rows = []
+    for f in fits:
+        c = theory.get(f.learner)
+        if c is None:
+            continue
+        p = c.predicted_exponent
+        rows.append({
+            "learner": f.learner,
+            "exponent": style.exponent_text(f, 3),
+            "reference rate": c.formula,
+            "predicted exponent": style.fmt_interval(p[0], p[1]) if p[0] != p[1] else style.fmt_number(p[0]),
+            "comparison": c.verdict,
+            "why": c.reason,
+            "source": c.source,
+        })
+    return pd.DataFrame(rows)
+
+
 def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campaign=None, fits=None, plan=None,
                    plan_note: str | None = None, extrapolation=None, settings: dict | None = None,
-                   true_dimension=None):
+                   true_dimension=None, theory=None):
     """Turn finished result objects into report sections and the JSON summary of a campaign.
 
     Parameters
@@ -406,6 +430,10 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
             sec.tables.append(("Optimisation-limited cells (stopped at the step or time limit, or best step late in the budget)",
                                pd.DataFrame(limited) if limited else None))
             summary["exponents"] = {f.learner: f.to_dict() for f in fits}
+            if theory:
+                sec.tables.append(("Each learner against its own reference rate (predicted exponent over the range of d "
+                                   "and s; the verdict is an interval test)", theory_table_frame(fits, theory)))
+                summary["theory"] = {name: c.to_dict() for name, c in theory.items()}
             summary["optimisation_limited"] = limited
             sec.figures.append(("learning_curves", plots.plot_learning_curves(rows, fits),
                                 "Test error against n: every repeat (small marks), size means (large marks), fitted curve (solid), "

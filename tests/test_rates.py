@@ -99,3 +99,21 @@ def test_bad_inputs():
         predicted_error(1, 2, 1)
     with pytest.raises(ValueError, match=r"'d' parameter of regression_exponent.*nan"):
         regression_exponent(float("nan"), 1)
+
+
+# Reference rates per learner: Györfi, Kohler, Krzyżak, Walk (2002), Thm 6.2 (kNN, s <= 1) and Ch. 6
+# (local averaging for s > 1: bias of order h in general, h^min(s,2) with a smooth density, no boundary).
+def test_reference_rates_per_learner():
+    from manireg.theory import noise_estimate_bias_exponent, reference_rate
+
+    net = reference_rate("net", 2, 1.5)
+    assert net.low == net.high == pytest.approx(0.6)
+    assert reference_rate("knn", 2, 1).low == reference_rate("knn", 2, 1).high == pytest.approx(0.5)
+    band = reference_rate("knn", 2, 1.5)
+    assert (band.low, band.high) == pytest.approx((0.5, 0.6))
+    assert reference_rate("knn", 2, 3).high == pytest.approx(4 / 6)  # min(s, 2) = 2
+    assert not reference_rate("kernel_ridge", 2, 1).stated
+    with pytest.raises(ValueError, match="'learner_kind' parameter of reference_rate"):
+        reference_rate("forest", 2, 1)
+    # noise-estimate bias n^(-2 min(s,1)/d) (derived): s = 2 gives the s = 1 exponent
+    assert noise_estimate_bias_exponent(4, 2) == pytest.approx(0.5) == noise_estimate_bias_exponent(4, 1)

@@ -77,7 +77,7 @@ def smoothness_choice(args):
 def run(args) -> int:
     from ..curves import Campaign
     from ..curves.sweep import check_sizes
-    from ..geometry import working_dimension
+    from ..geometry import dimension_range, working_dimension
     from .geometry import describe
 
     if args.repeats < 1:
@@ -102,7 +102,8 @@ def run(args) -> int:
     learners = learner_specs(args.learners, args.width_multipliers, args.precision, sizing)
     campaign = Campaign(X=table.X, y=table.y, sizes=args.sizes, repeats=args.repeats, learners=learners,
                         dimension=d, smoothness=s, seed=args.seed, name=name, store=store,
-                        dimension_source="given" if args.dimension is not None else "geometry read-out (rounded consensus)")
+                        dimension_source="given" if args.dimension is not None else "geometry read-out (rounded consensus)",
+                        dimension_interval=None if geo is None or args.dimension is not None else dimension_range(geo.dimension))
     extra = {"source": args.data, "target": args.target}
     if geo is not None:
         extra["geometry"] = geo.to_dict()

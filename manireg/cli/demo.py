@@ -22,7 +22,7 @@ def add_parser(sub):
 def run(args) -> int:
     from ..curves import Campaign, LearnerSpec
     from ..data import pebble_scenario
-    from ..geometry import working_dimension
+    from ..geometry import dimension_range, working_dimension
     from .geometry import describe
 
     out = out_dir(args.out)
@@ -43,6 +43,7 @@ def run(args) -> int:
     store = os.path.join(out, "campaign.sqlite")
     campaign = Campaign.from_regression_sample(reg, sizes=sizes, repeats=repeats, dimension=d_hat, seed=args.seed,
                                                dimension_source="geometry read-out (rounded consensus)",
+                                               dimension_interval=dimension_range(geo.dimension),
                                                name="demo", learners=[LearnerSpec("net", params=net), LearnerSpec("knn")],
                                                store=store)
     state = campaign.progress()

@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 
 from manireg._results import ResultMixin
 from manireg.curves.execution import run_cells
-from manireg.curves.floors import DEFAULT_FLOOR, resolve_floor
+from manireg.curves.floors import DEFAULT_FLOOR, choose_floor
 from manireg.curves.store import ResultStore
 from manireg.curves.sweep import CampaignSpec, expand, prepare
 
@@ -55,8 +55,10 @@ class CampaignResult(ResultMixin):
         Known label-noise variance (synthetic data), else None.
     noise_estimate : float or None
         Label-noise variance estimated from the data outside the test set
-        (:func:`manireg.curves.noise.noise_variance`, first-neighbour estimator); the floor of
-        ``floor="estimate"`` fits.
+        (:func:`manireg.curves.noise.noise_variance`, Gamma test); the floor of ``floor="estimate"`` fits.
+    noise_estimate_interval : tuple or None
+        Its interval (from the power-law extrapolation up to the straight-line one, widened by the
+        jackknife); a fit's floor carries it into the exponent's interval and the verdict.
     dimension_source : str
         "given", "generator" or "estimated".
     summary : dict
@@ -73,6 +75,8 @@ class CampaignResult(ResultMixin):
     noise_variance: float | None = None
     noise_estimate: float | None = None
     dimension_source: str = "given"
+    noise_estimate_interval: tuple | None = None
+    dimension_interval: tuple | None = None
     summary: dict = field(default_factory=dict)
     _skip_in_dict = ("rows",)
 
@@ -87,21 +91,52 @@ class CampaignResult(ResultMixin):
     def fit_settings(self, **kwargs) -> dict:
         """Keyword arguments of :func:`~manireg.curves.fitting.fit_exponent` for this campaign: ``dimension``,
         ``smoothness`` and ``ambient_dim`` default to the campaign's, and ``floor`` (default ``"estimate"``) is
-        resolved by :func:`~manireg.curves.floors.resolve_floor` against the campaign's noise estimate."""
+        turned into fit arguments by :func:`~manireg.curves.floors.choose_floor` with the campaign's noise
+        estimate and its interval."""
         kwargs.setdefault("smoothness", self.smoothness)
         kwargs.setdefault("dimension", self.dimension)
         kwargs.setdefault("ambient_dim", self.ambient_dim)
-        floor, extra = resolve_floor(kwargs.get("floor", DEFAULT_FLOOR), self.noise_estimate)
+        floor, nv, _ = choose_floor(kwargs.get("floor", DEFAULT_FLOOR), kwargs.get("metric", "test_mse"), self.noise_level)
         kwargs["floor"] = floor
-        for k, v in extra.items():
-            kwargs.setdefault(k, v)
+        if kwargs.get("noise_variance") is None:
+            kwargs["noise_variance"] = nv
         return kwargs
+
+    @property
+    def noise_level(self):
+        """The noise estimate with its interval (:class:`~manireg.curves.noise.NoiseLevel`), or None."""
+        from manireg.curves.noise import NoiseLevel
+
+        if self.noise_estimate is None:
+            return None
+        iv = None if self.noise_estimate_interval is None else tuple(float(v) for v in self.noise_estimate_interval)
+        return NoiseLevel(float(self.noise_estimate), iv, "gamma")
+
+    def read_out(self, *, floor=DEFAULT_FLOOR, target_error=None, smoothness=None, allow_unverified=False, seed=0,
+                 metric="test_mse", level=0.95):
+        """Everything the CLI, the report and the curve panel show (:func:`manireg.curves.readout.read_out`):
+        fits with verdicts, each learner against its own reference rate, extrapolation checks and a plan.
+
+        ``smoothness`` (a number or a ``(low, high)`` range) defaults to the campaign's.
+        """
+        from manireg.curves.readout import read_out
+
+        kinds = {}
+        for l in self.spec.get("learners") or []:
+            if isinstance(l, dict) and l.get("name"):
+                kinds[l["name"]] = l.get("kind")
+        return read_out(self.rows, dimension=self.dimension, dimension_interval=self.dimension_interval,
+                        smoothness=self.smoothness if smoothness is None else smoothness, ambient_dim=self.ambient_dim,
+                        noise_estimate=self.noise_level, floor=floor, target_error=target_error,
+                        learner_kinds=kinds or None, seed=seed, metric=metric, level=level,
+                        allow_unverified=allow_unverified)
 
     def fit(self, learner=None, **kwargs):
         """Fitted exponent of one learner (:func:`manireg.curves.fitting.fit_exponent`).
 
         ``smoothness``, ``dimension`` and ``ambient_dim`` default to the campaign's; ``floor`` takes the
-        choices of :func:`resolve_floor` (default ``"estimate"``: the campaign's noise estimate).
+        choices of :func:`~manireg.curves.floors.choose_floor` (default ``"estimate"``: the campaign's noise
+        estimate).
         With several learners and ``learner=None`` this returns :meth:`fit_all`.
 
         References
@@ -144,6 +179,10 @@ class CampaignResult(ResultMixin):
             fit = fit_exponent(self.rows, learner, **self.fit_settings(**fit_kwargs))
         return plan_samples(fit, target_error, allow_unverified=allow_unverified, dimension=self.dimension,
                             smoothness=self.smoothness, input_dim=self.ambient_dim)
+
+
+def _pair(v):
+    return None if v is None else (float(v[0]), float(v[1]))
 
 
 class Campaign:
@@ -219,15 +258,21 @@ class Campaign:
         keeps what finished; calling ``run`` again resumes.
         """
         cells = self.cells()
-        self.store.put_campaign({**self.data.metadata(self.spec), "noise_estimate": self.noise_estimate(), **(metadata or {})})
+        noise = self.noise_level()
+        self.store.put_campaign({**self.data.metadata(self.spec), "noise_estimate": noise.value,
+                                 "noise_estimate_interval": noise.interval, **(metadata or {})})
         summary = run_cells(cells, self.data, self.store, executor=executor, n_jobs=n_jobs, scheduler=scheduler,
                             progress=progress, retry_failed=retry_failed, torch_threads=torch_threads,
                             stop=stop, on_unit=on_unit)
         return self.result(summary)
 
     def noise_estimate(self) -> float:
-        """Label-noise variance estimated from the rows outside the test set (first-neighbour estimator of
-        Devroye, Györfi, Lugosi and Walk 2018; see :func:`manireg.curves.noise.noise_variance`). Cached."""
+        """Label-noise variance estimated from the rows outside the test set (the Gamma test; see
+        :func:`manireg.curves.noise.noise_variance`). Cached; :meth:`noise_level` adds its interval."""
+        return self.noise_level().value
+
+    def noise_level(self):
+        """The noise estimate with its interval (:class:`~manireg.curves.noise.NoiseLevel`). Cached."""
         if getattr(self, "_noise", None) is None:
             import warnings
 
@@ -236,7 +281,7 @@ class Campaign:
             pool = np.setdiff1d(np.arange(len(self.data.y)), self.data.test_idx)
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")  # duplicates are reported by the geometry read-out
-                self._noise = float(noise_variance(self.data.X[pool], self.data.y[pool]).value)
+                self._noise = noise_variance(self.data.X[pool], self.data.y[pool], seed=self.data.seed).level()
         return self._noise
 
     def result(self, summary=None) -> CampaignResult:
@@ -246,7 +291,10 @@ class Campaign:
                               smoothness=self.data.smoothness, ambient_dim=self.data.ambient_dim,
                               name=self.data.name, store_path=self.store.path,
                               noise_variance=self.data.noise_variance, noise_estimate=self.noise_estimate(),
-                              dimension_source=self.data.dimension_source, summary=dict(summary or {}))
+                              noise_estimate_interval=self.noise_level().interval,
+                              dimension_source=self.data.dimension_source,
+                              dimension_interval=_pair(self.spec.dimension_interval),
+                              summary=dict(summary or {}))
 
     @staticmethod
     def from_store(path, campaign=None) -> CampaignResult:
@@ -284,7 +332,9 @@ class Campaign:
                               smoothness=meta.get("smoothness"), ambient_dim=meta.get("ambient_dim"),
                               name=campaign, store_path=path, noise_variance=meta.get("noise_variance"),
                               noise_estimate=meta.get("noise_estimate"),
-                              dimension_source=meta.get("dimension_source", "given"))
+                              noise_estimate_interval=_pair(meta.get("noise_estimate_interval")),
+                              dimension_source=meta.get("dimension_source", "given"),
+                              dimension_interval=_pair((meta.get("spec") or {}).get("dimension_interval")))
 
     def __repr__(self):
         return (f"Campaign(name={self.data.name!r}, sizes={self.data.sizes}, repeats={self.data.repeats}, "

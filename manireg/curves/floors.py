@@ -1,7 +1,7 @@
 """The error floor of a learning-curve fit: one set of choices with one meaning on every surface.
 
 The Python API, the command line (``--floor``), the curve panel and the report all pass their choice
-through :func:`resolve_floor`, so the same rows give the same fit wherever they are read.
+through :func:`choose_floor`, so the same rows give the same fit wherever they are read.
 
 ========== ===================================================================================
 choice     meaning
@@ -19,7 +19,7 @@ from __future__ import annotations
 import math
 import numbers
 
-__all__ = ["DEFAULT_FLOOR", "FLOOR_CHOICES", "resolve_floor", "parse_floor", "describe_floor"]
+__all__ = ["DEFAULT_FLOOR", "FLOOR_CHOICES", "choose_floor", "parse_floor", "describe_floor"]
 
 #: The floor every surface uses unless told otherwise.
 DEFAULT_FLOOR = "estimate"
@@ -55,38 +55,43 @@ def parse_floor(value):
     return value
 
 
-def resolve_floor(choice, noise_estimate=None):
-    """``(floor, extra)`` for :func:`manireg.curves.fitting.fit_exponent` from a floor choice.
+def choose_floor(choice, metric: str = "test_mse", noise_estimate=None):
+    """``(floor, noise_variance, note)`` for :func:`manireg.curves.fitting.fit_exponent` from a floor choice: the
+    one place a user's choice becomes fit arguments (:func:`manireg.curves.fitting.floor_model` then turns
+    them into the curve model).
 
     Parameters
     ----------
     choice : None, "none", "fit", "estimate" or float
         See the module table.
-    noise_estimate : float, optional
-        The campaign's noise-variance estimate (needed by "estimate").
-
-    Returns
-    -------
-    floor : None, "fit", "estimate" or float
-    extra : dict
-        Further keyword arguments of the fit (``noise_variance`` for "estimate").
+    metric : str, default="test_mse"
+        A metric against the noise-free target (``*_clean``) has floor 0: "estimate" then means no floor
+        and "fit" is bounded by the data alone (the note says so).
+    noise_estimate : float or NoiseEstimate, optional
+        The campaign's noise-variance estimate (needed by "estimate"; its interval bounds "fit").
 
     Raises
     ------
     ValueError
-        For an unknown choice, or "estimate" without a noise estimate.
+        For an unknown choice, or "estimate" on a noisy metric without a noise estimate.
     """
     choice = parse_floor(choice)
+    clean = str(metric).endswith("_clean")
     if choice == "none":
-        return None, {}
-    if choice == "fit":
-        return "fit", {}
+        return None, None, "no floor (plain power law)"
+    if isinstance(choice, float):
+        return choice, None, f"floor given: {choice:.4g}"
+    usable = noise_estimate is not None and math.isfinite(float(getattr(noise_estimate, "value", noise_estimate)))
     if choice == "estimate":
-        if noise_estimate is None or not math.isfinite(float(noise_estimate)):
+        if clean:
+            return None, None, f"the metric {metric!r} is measured against the noise-free target: its floor is 0"
+        if not usable:
             raise ValueError("the 'estimate' floor needs the campaign's noise-variance estimate and none is recorded; "
                              "run the campaign again to record it, or choose the floor 'fit', 'none' or a value.")
-        return "estimate", {"noise_variance": float(noise_estimate)}
-    return float(choice), {}
+        return "estimate", noise_estimate, "floor = the estimated noise variance"
+    if clean:
+        return "fit", None, "floor fitted (the clean metric's true floor is 0)"
+    return "fit", (noise_estimate if usable else None), "floor fitted within what the noise estimate allows"
 
 
 def describe_floor(choice) -> str:

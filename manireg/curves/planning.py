@@ -20,7 +20,16 @@ import numpy as np
 from manireg._results import ResultMixin
 from manireg._validation import check_float, check_int
 
-from .fitting import VERDICT_MEASURED, ExponentFit, _select_rows, fit_exponent
+from .fitting import (
+    VERDICT_MEASURED,
+    ExponentFit,
+    _error_matrix,
+    _select_rows,
+    _t_interval,
+    fit_exponent,
+    jackknife_se,
+    t_quantile,
+)
 
 __all__ = [
     "SamplePlan",
@@ -45,8 +54,8 @@ class SamplePlan(ResultMixin):
     n_required : float
         ``(a / (target - c))^(1/b)`` from the fitted curve (not rounded).
     interval : tuple of float
-        Percentile interval of the same inversion over the bootstrap draws of ``(a, b, c)``; ``inf`` when
-        some draws put the target at or below their floor or give a curve that does not fall.
+        ``exp(log n +- t_{R-1} se)`` over the leave-one-repeat-out fits; ``inf`` when a replicate puts the
+        target at or below its floor or gives a curve that does not fall.
     level : float
     exponent, exponent_interval, floor, model, verdict : as in the fit
     extrapolated : bool
@@ -116,14 +125,16 @@ def plan_samples(
     allow_unverified=False,
     dimension=None,
     smoothness=None,
-    input_dim=None,
+    ambient_dim=None,
     constants=None,
+    input_dim=None,
 ) -> SamplePlan:
     """Samples needed for a target test error, by inverting the fitted ``err = a n^-b + c``.
 
-    ``n = (a / (target - c))^(1/b)``. The interval applies the same inversion to every bootstrap draw of
-    ``(a, b, c)`` kept in the fit and takes percentiles; draws whose floor is at or above the target count
-    as needing infinitely many samples, so the upper end may be ``inf``.
+    ``n = (a / (target - c))^(1/b)``. The interval applies the same inversion to every leave-one-repeat-out
+    fit kept in the fit and forms ``log n +- t_{R-1} se`` from their jackknife standard error; when a
+    replicate's floor is at or above the target the upper end is ``inf``. A target at or below the floor, or
+    below the upper end of the floor's interval, is refused with the reason.
 
     Parameters
     ----------
@@ -135,8 +146,8 @@ def plan_samples(
         Plan from a fit whose verdict is not "measured"; the plan then carries a ``warning``.
     dimension, smoothness : float, optional
         ``d`` and ``s`` for the network size at the planned n (default: the values stored in the fit).
-    input_dim : int, optional
-        Input width ``D`` of the network (default: the fit's ``ambient_dim``).
+    ambient_dim : int, optional
+        Input width ``D`` of the network (default: the fit's ``ambient_dim``); ``input_dim`` is its old name.
     constants : optional
         Passed to :func:`manireg.theory.sizing.size_network`.
 
@@ -171,11 +182,18 @@ def plan_samples(
                 "allow_unverified=True to get a plan marked with a warning."
             )
         warning = msg + "; this plan extrapolates a curve that is not a verified power law."
+    floor_hi = max(fit.floor, fit.floor_interval[1]) if np.isfinite(fit.floor_interval[1]) else fit.floor
     if target <= fit.floor:
         raise ValueError(
             f"{owner}: target_error {target:.4g} is at or below the fitted floor {fit.floor:.4g} "
             f"({fit.floor_source}); no sample size reaches it. Choose a target above the floor or reduce the "
             "noise/floor (e.g. better features)."
+        )
+    if target <= floor_hi:
+        raise ValueError(
+            f"{owner}: target_error {target:.4g} lies inside the floor's interval [{fit.floor_interval[0]:.4g}, "
+            f"{fit.floor_interval[1]:.4g}] ({fit.floor_source}): the floor itself may be at or above the target, so "
+            "no sample size is sure to reach it. Choose a target above the floor's interval."
         )
     if fit.exponent <= 0:
         raise ValueError(
@@ -183,18 +201,16 @@ def plan_samples(
             "so more samples do not reach a lower target."
         )
     n_req = float(_invert(fit.prefactor, fit.exponent, fit.floor, target))
-    boot = fit.boot_params if fit.boot_params is not None else np.empty((0, 3))
-    if len(boot):
-        draws = _invert(boot[:, 0], boot[:, 1], boot[:, 2], target)
-        alpha = (1.0 - fit.level) / 2.0
-        # quantiles with inf handled: sort and pick order statistics
-        srt = np.sort(draws)
-        lo = float(srt[int(np.floor(alpha * (len(srt) - 1)))])
-        hi = float(srt[int(np.ceil((1 - alpha) * (len(srt) - 1)))])
-        finite = srt[np.isfinite(srt)]
-        if np.isfinite(lo) and np.isfinite(hi):
-            lo, hi = (float(v) for v in np.quantile(finite, [alpha, 1 - alpha]))
-        interval = (lo, hi)
+    reps = fit.replicate_params if fit.replicate_params is not None else np.empty((0, 3))
+    if len(reps) >= 2:
+        draws = _invert(reps[:, 0], reps[:, 1], reps[:, 2], target)
+        if np.all(np.isfinite(draws)):
+            se = float(jackknife_se(np.log(draws)))
+            lo, hi = _t_interval(math.log(n_req), se, fit.level, len(reps) - 1)
+            interval = (math.exp(lo), math.exp(hi))
+        else:
+            interval = (float(np.min(draws[np.isfinite(draws)])) if np.isfinite(draws).any() else n_req, float("inf"))
+        interval = (min(interval[0], n_req), max(interval[1], n_req))
     else:
         interval = (float("nan"), float("nan"))
 
@@ -202,7 +218,7 @@ def plan_samples(
     arch_n = None
     d = dimension if dimension is not None else fit.dimension
     s = smoothness if smoothness is not None else fit.smoothness
-    D = input_dim if input_dim is not None else fit.ambient_dim
+    D = ambient_dim if ambient_dim is not None else (input_dim if input_dim is not None else fit.ambient_dim)
     if smoothness is None and s is not None and not isinstance(s, (int, float)):
         s = None  # the fit holds a range of s; size the network only when one value is passed here
     if d is not None and s is not None and D is not None and np.isfinite(n_req):
@@ -214,7 +230,7 @@ def plan_samples(
         from manireg.theory.sizing import size_network
 
         arch_n = int(math.ceil(n_req))
-        spec = size_network(arch_n, d, s, check_int(D, "input_dim", owner=owner, low=1), constants=constants)
+        spec = size_network(arch_n, d, s, check_int(D, "ambient_dim", owner=owner, low=1), constants=constants)
         arch = spec.to_dict()
 
     return SamplePlan(
@@ -236,8 +252,10 @@ class ExtrapolationCheck(ResultMixin):
     ----------
     table : list of dict
         Per held-out size: ``n``, ``observed`` (mean over repeats), ``predicted``, ``predicted_lo``,
-        ``predicted_hi`` (bootstrap percentile band), ``relative_error`` = (predicted - observed) / observed,
-        ``inside_band``.
+        ``predicted_hi`` (a prediction interval for the held-out *mean*: ``predicted * exp(+- t_{R-1} se)`` with
+        ``se`` the jackknife over repeats of ``log observed - log predicted``, so it carries the noise of the
+        held-out mean and of the fit, and their correlation through shared repeats), ``relative_error`` =
+        (predicted - observed) / observed, ``inside_band``.
     fit : ExponentFit
         The fit on the smaller sizes.
     mean_abs_relative_error : float
@@ -302,18 +320,25 @@ def extrapolation_check(rows, learner=None, *, holdout=1, metric="test_mse", **f
         )
     fit_sizes, held = sizes[:-holdout], sizes[-holdout:]
     fit = fit_exponent(sel, learner, metric=metric, n_range=(fit_sizes[0], fit_sizes[-1]), **fit_kwargs)
+    all_sizes, E = _error_matrix(sel, metric)
+    reps = fit.replicate_params
+    R = E.shape[0]
     table = []
-    boot = fit.boot_params
-    alpha = (1.0 - fit.level) / 2.0
     for n in held:
-        obs = float(sel.loc[sel["n"].astype(float) == n, metric].mean())
+        col = E[:, int(np.searchsorted(all_sizes, n))]
+        obs = float(np.nanmean(col))
         pred = float(fit.predict(n))
-        if boot is not None and len(boot):
-            band = boot[:, 0] * n ** (-boot[:, 1]) + boot[:, 2]
-            band = band[np.isfinite(band)]
-            lo, hi = (float(v) for v in np.quantile(band, [alpha, 1 - alpha]))
-        else:
-            lo = hi = float("nan")
+        lo = hi = float("nan")
+        if reps is not None and len(reps) == R and R >= 2:
+            ok = np.isfinite(col)
+            tot = np.nansum(col)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                obs_loo = (tot - np.where(ok, col, 0.0)) / (ok.sum() - ok)
+                pred_loo = reps[:, 0] * n ** (-reps[:, 1]) + reps[:, 2]
+                stat_loo = np.log(obs_loo) - np.log(pred_loo)
+            se = float(jackknife_se(stat_loo))
+            h = t_quantile(fit.level, R - 1) * se
+            lo, hi = pred * math.exp(-h), pred * math.exp(h)
         table.append(
             {
                 "n": float(n), "observed": obs, "predicted": pred, "predicted_lo": lo, "predicted_hi": hi,
@@ -345,13 +370,14 @@ class CapacityReadout(ResultMixin):
     ``"between"``: narrower nets do worse and wider nets do worse, so the rule's width sits between the
     approximation-limited and the variance-limited regimes; ``"approximation-limited"``: a wider net does
     better, the rule's width is too small; ``"variance-limited"``: a narrower net does better, the rule's
-    width is too large; ``"no clear difference"``), and ``reason``. Differences count only beyond
-    ``margin`` standard errors.
+    width is too large; ``"no clear difference"``), and ``reason``. Differences are paired over the repeats
+    that both widths ran and count when their Student-t interval at ``level`` excludes 0.
     """
 
     multipliers: list
-    margin: float
+    margin: float | None
     table: list
+    level: float = 0.95
 
     def to_frame(self):
         """One row per n."""
@@ -368,7 +394,7 @@ def _multiplier_of(name):
     return float(m.group(1)) if m else None
 
 
-def capacity_readout(rows, *, metric="test_mse", margin=2.0) -> CapacityReadout:
+def capacity_readout(rows, *, metric="test_mse", level=0.95, margin=None) -> CapacityReadout:
     """Read a width sweep: at each n, the best width multiplier and where multiplier 1 sits.
 
     The multiplier of each row is taken from a ``width_multiplier`` column when present, else from a
@@ -379,8 +405,11 @@ def capacity_readout(rows, *, metric="test_mse", margin=2.0) -> CapacityReadout:
     rows : pandas.DataFrame
         Campaign rows with ``learner``, ``n``, ``repeat`` and ``metric``.
     metric : str, default "test_mse"
-    margin : float, default 2
-        A difference of mean errors counts when it exceeds ``margin`` times its standard error.
+    level : float, default 0.95
+        A paired difference (over the repeats both widths ran) counts when its ``level`` Student-t interval
+        excludes 0.
+    margin : float, optional
+        Use ``margin`` standard errors instead of the Student quantile.
 
     Returns
     -------
@@ -394,7 +423,9 @@ def capacity_readout(rows, *, metric="test_mse", margin=2.0) -> CapacityReadout:
     import pandas as pd
 
     owner = "capacity_readout"
-    margin = check_float(margin, "margin", owner=owner, low=0.0)
+    level = check_float(level, "level", owner=owner, low=0.0, high=1.0, low_open=True, high_open=True)
+    if margin is not None:
+        margin = check_float(margin, "margin", owner=owner, low=0.0)
     if not isinstance(rows, pd.DataFrame) or len(rows) == 0:
         raise ValueError(f"{owner}: rows is empty or not a DataFrame; pass the campaign rows of a width sweep.")
     missing = [c for c in ("learner", "n", "repeat", metric) if c not in rows.columns]
@@ -427,14 +458,24 @@ def capacity_readout(rows, *, metric="test_mse", margin=2.0) -> CapacityReadout:
             row.update(rule_error=float("nan"), status="no rule width", reason="no run at multiplier 1 at this n.")
             table.append(row)
             continue
-        r_mean, r_se = g.loc[1.0, "mean"], g.loc[1.0, "se"]
+        r_mean = g.loc[1.0, "mean"]
         row["rule_error"] = float(r_mean)
 
+        at_n = df[df["n"] == n]
+        rule_by_rep = at_n[at_n["_m"] == 1.0].groupby("repeat")[metric].mean()
+
         def sig(m):
-            """+1 if multiplier m is clearly worse than the rule's width, -1 clearly better, 0 unclear."""
-            diff = g.loc[m, "mean"] - r_mean
-            se = math.hypot(g.loc[m, "se"], r_se)
-            if abs(diff) <= margin * se:
+            """+1 if multiplier m is clearly worse than the rule's width, -1 clearly better, 0 unclear.
+            Paired over the repeats both widths ran (they share data and test set): mean difference against
+            t_{R-1} (or ``margin``) times its standard error."""
+            other = at_n[at_n["_m"] == m].groupby("repeat")[metric].mean()
+            d = (other - rule_by_rep).dropna().to_numpy(dtype=float)
+            if d.size < 2:
+                return 0
+            diff = float(d.mean())
+            se = float(d.std(ddof=1) / math.sqrt(d.size))
+            crit = t_quantile(level, d.size - 1) if margin is None else margin
+            if abs(diff) <= crit * se:
                 return 0
             return 1 if diff > 0 else -1
 
@@ -465,9 +506,9 @@ def capacity_readout(rows, *, metric="test_mse", margin=2.0) -> CapacityReadout:
         else:
             status = CAPACITY_FLAT
             reason = (
-                f"no width differs from multiplier 1 by more than {margin:g} standard errors on both sides; "
+                "no width differs clearly from multiplier 1 (paired over repeats) on both sides; "
                 "more repeats would sharpen the comparison."
             )
         row.update(status=status, reason=reason)
         table.append(row)
-    return CapacityReadout(multipliers=[float(m) for m in mults], margin=margin, table=table)
+    return CapacityReadout(multipliers=[float(m) for m in mults], margin=margin, table=table, level=level)

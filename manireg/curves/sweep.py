@@ -121,6 +121,9 @@ class CampaignSpec:
         Hölder smoothness s; 1.0 (Lipschitz) when None and not known from the generator.
     dimension_source : str, optional
         Where a given ``dimension`` came from, in words (e.g. "geometry read-out"); default "given".
+    dimension_interval : (low, high), optional
+        The range the dimension is read in (e.g. :func:`manireg.geometry.dimension_range`); the theory
+        comparison carries it into each predicted exponent. Not part of the cell keys.
     name : str, default="campaign"
         Name of the campaign in the store (several campaigns can share one store).
 
@@ -144,6 +147,7 @@ class CampaignSpec:
     smoothness: float | None = None
     name: str = "campaign"
     dimension_source: str | None = None
+    dimension_interval: tuple | None = None
 
     def to_dict(self) -> dict:
         """JSON-ready settings (arrays left out; the data is identified by its fingerprint elsewhere)."""
@@ -153,6 +157,8 @@ class CampaignSpec:
             "repeats": self.repeats, "learners": learners, "test_fraction": self.test_fraction,
             "test_size": self.test_size, "validation_fraction": self.validation_fraction, "seed": self.seed,
             "dimension": self.dimension, "smoothness": self.smoothness, "name": self.name,
+            "dimension_source": self.dimension_source,
+            "dimension_interval": None if self.dimension_interval is None else [float(v) for v in self.dimension_interval],
         }
 
 

@@ -14,7 +14,8 @@ import numpy as np
 from .._results import ResultMixin
 from .._validation import check_points, check_target
 
-__all__ = ["GeometrySummary", "describe_geometry", "GEOMETRY_STEPS", "working_dimension", "chart_dimension"]
+__all__ = ["GeometrySummary", "describe_geometry", "GEOMETRY_STEPS", "working_dimension", "chart_dimension",
+           "dimension_range"]
 
 #: The steps of :func:`describe_geometry`, in order (a progress callback receives these names).
 GEOMETRY_STEPS = ("dimension", "charts", "chart counts", "curvature", "resolution", "2-D view")
@@ -88,6 +89,20 @@ def working_dimension(consensus) -> float:
     """The dimension a campaign sizes its networks and predictions with: the consensus rounded to two
     decimals and at least 1 (the one place this rounding is done)."""
     return max(1.0, round(float(consensus), 2))
+
+
+def dimension_range(report) -> tuple:
+    """``(low, high)`` that the intrinsic dimension is read in, for the theory comparison: from the lowest to the
+    highest of the estimators' values and interval ends (the spread between estimators is part of the
+    uncertainty of d, and usually the larger part)."""
+    vals = []
+    for e in report.estimates:
+        for v in (e.dimension, e.lower, e.upper):
+            if v is not None and np.isfinite(v):
+                vals.append(float(v))
+    if not vals:
+        return (float(report.consensus), float(report.consensus))
+    return (min(vals), max(vals))
 
 
 def chart_dimension(consensus) -> int:

@@ -9,6 +9,9 @@ from manireg.theory.rates import (
     implied_smoothness,
     predicted_error,
     regression_exponent,
+    ReferenceRate,
+    reference_rate,
+    noise_estimate_bias_exponent,
 )
 from manireg.theory.sizing import (
     ArchitectureSpec,
@@ -28,6 +31,9 @@ __all__ = [
     "ambient_approximation_parameters",
     "ApproximationParameters",
     "predicted_error",
+    "ReferenceRate",
+    "reference_rate",
+    "noise_estimate_bias_exponent",
     "SizingConstants",
     "ArchitectureSpec",
     "size_network",

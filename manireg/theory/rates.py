@@ -37,6 +37,10 @@ __all__ = [
     "ambient_approximation_parameters",
     "predicted_error",
     "ApproximationParameters",
+    "ReferenceRate",
+    "reference_rate",
+    "LEARNER_RATE_KINDS",
+    "noise_estimate_bias_exponent",
 ]
 
 
@@ -379,3 +383,112 @@ def predicted_error(n, d, s, scale=1.0, log_power=0.0):
                    rule="a finite real >= 0", fix="Pass 0 for no log factor or 3 for the bound of Chen et al.")
     val = sc * nn_ ** (-np.asarray(b)) * np.log(nn_) ** lp
     return _out(val, n, d, s, scale, log_power)
+
+
+# ----------------------------------------------------------------------------------------------------
+# Reference rates per learner
+# ----------------------------------------------------------------------------------------------------
+LEARNER_RATE_KINDS = ("net", "knn", "kernel_ridge")
+
+
+@dataclass
+class ReferenceRate(ResultMixin):
+    """The exponent a learner can be expected to reach, as a band ``[low, high]`` (equal ends for a single
+    rate; NaN when no rate can be stated), with its formula, source and the conditions it needs.
+    """
+
+    learner_kind: str
+    dimension: float
+    smoothness: float
+    low: float
+    high: float
+    formula: str
+    source: str
+    conditions: str
+
+    @property
+    def stated(self) -> bool:
+        """True when a rate is stated (not NaN)."""
+        return bool(np.isfinite(self.low))
+
+
+def reference_rate(learner_kind, d, s) -> ReferenceRate:
+    """Reference exponent of a learner's squared-error rate on an ``s``-smooth target in dimension ``d``.
+
+    * ``"net"``: ``2s/(2s+d)``, up to log factors, for ReLU networks sized by the rule (depth ~ log n, width
+      ~ n^(d/(2s+d))) on a compact d-dimensional manifold with a Hölder-s target (Chen, Jiang, Liao, Zhao,
+      Information and Inference 11, 2022; Schmidt-Hieber, Ann. Statist. 48, 2020; Nakada and Imaizumi, JMLR 21,
+      2020). Conditions: the network is trained to (near) empirical risk minimisation, which training does
+      not guarantee.
+    * ``"knn"``: ``2s/(2s+d)`` for ``s <= 1`` with ``k ~ n^(2s/(2s+d))`` (Györfi, Kohler, Krzyżak, Walk, *A
+      Distribution-Free Theory of Nonparametric Regression*, 2002, Thm 6.2, Lipschitz-type targets, bounded
+      support). For ``s > 1`` a local average does not exploit the extra smoothness in general: its bias is of
+      order ``h`` with boundaries or a non-smooth design density (exponent ``2/(2+d)``) and of order
+      ``h^min(s,2)`` only where the density is smooth and there is no boundary (exponent
+      ``2 min(s,2)/(2 min(s,2)+d)``; ibid., Ch. 6 on local averaging). The band is ``[2/(2+d),
+      2 min(s,2)/(2 min(s,2)+d)]``.
+    * ``"kernel_ridge"``: no rate is stated. Gaussian kernel ridge with bandwidth ``~ n^(-1/(2s+d))`` and
+      a tuned penalty is known to reach ``2s/(2s+D)`` up to a factor ``n^epsilon`` in the ambient dimension
+      (Eberts and Steinwart, Electron. J. Statist. 7, 2013, from memory), and intrinsic-dimension versions
+      exist for data on manifolds (Hamm and Steinwart, from memory), but the exact conditions for the
+      bandwidth rule used here (median distance times ``n^(-1/(2s+d))``, penalty ``n^(-2s/(2s+d))``) were not
+      checked against the sources, so the comparison is left undetermined.
+
+    Parameters
+    ----------
+    learner_kind : {"net", "knn", "kernel_ridge"}
+    d : float
+        Intrinsic dimension, >= 1.
+    s : float
+        Hölder smoothness, > 0.
+
+    Returns
+    -------
+    ReferenceRate
+
+    Examples
+    --------
+    >>> r = reference_rate("knn", 2, 1.5)
+    >>> round(r.low, 3), round(r.high, 3)
+    (0.5, 0.6)
+    """
+    func = "reference_rate"
+    dd = float(_dimension(d, func))
+    ss = float(_smoothness(s, func))
+    if learner_kind == "net":
+        b = 2 * ss / (2 * ss + dd)
+        return ReferenceRate("net", dd, ss, b, b, "2s/(2s+d)",
+                             "Chen, Jiang, Liao, Zhao (2022); Schmidt-Hieber (2020); Nakada and Imaizumi (2020)",
+                             "network sized by the rule and trained to near empirical risk minimisation; "
+                             "rate up to log factors")
+    if learner_kind == "knn":
+        if ss <= 1:
+            b = 2 * ss / (2 * ss + dd)
+            return ReferenceRate("knn", dd, ss, b, b, "2s/(2s+d)", "Györfi, Kohler, Krzyżak, Walk (2002), Thm 6.2",
+                                 "s <= 1, k ~ n^(2s/(2s+d)), bounded support")
+        se = min(ss, 2.0)
+        return ReferenceRate("knn", dd, ss, 2 / (2 + dd), 2 * se / (2 * se + dd),
+                             "2/(2+d) to 2 min(s,2)/(2 min(s,2)+d)", "Györfi, Kohler, Krzyżak, Walk (2002), Ch. 6",
+                             "s > 1: bias of order h with boundaries or a rough design density (low end), of order "
+                             "h^min(s,2) with a smooth density and no boundary (high end)")
+    if learner_kind == "kernel_ridge":
+        return ReferenceRate("kernel_ridge", dd, ss, float("nan"), float("nan"), "none stated",
+                             "none checked (Eberts and Steinwart 2013 for the ambient rate, from memory)",
+                             "the bandwidth rule's conditions were not verified against a source")
+    raise ValueError(
+        f"the 'learner_kind' parameter of {func} must be one of {LEARNER_RATE_KINDS}; got {learner_kind!r}. "
+        "Pass the kind of the learner (LearnerSpec.kind)."
+    )
+
+
+def noise_estimate_bias_exponent(d, s):
+    """Exponent of the bias of nearest-neighbour noise-variance estimates: ``n^(-2 min(s,1)/d)``.
+
+    The bias is half the mean squared change of the target between neighbours at distance ``r ~ n^(-1/d)``;
+    a Hölder-s target changes by ``r^min(s,1)`` over ``r`` (beyond s = 1 the first-order change ``r`` is what
+    remains), so the bias falls like ``r^(2 min(s,1)) = n^(-2 min(s,1)/d)`` (Devroye, Györfi, Lugosi and
+    Walk, Electron. J. Statist. 12, 2018; derived).
+    """
+    dd = _dimension(d, "noise_estimate_bias_exponent")
+    ss = _smoothness(s, "noise_estimate_bias_exponent")
+    return _out(2.0 * np.minimum(ss, 1.0) / dd, d, s)
