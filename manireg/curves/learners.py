@@ -372,6 +372,3 @@ def make_learner(spec) -> Learner:
     """The Learner object for a :class:`LearnerSpec` (or anything :meth:`LearnerSpec.coerce` accepts)."""
     spec = LearnerSpec.coerce(spec)
     return LEARNER_KINDS[spec.kind](spec)
-
-
-from manireg.curves import policy as _policy  # noqa: E402,F401 - registers the "policy" learner kind

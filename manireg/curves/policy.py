@@ -332,7 +332,10 @@ def fit_stage_loop(kind, tasks, spec, config, n_outputs) -> StageFit:
     """
     if kind not in _LOSSES:
         raise ValueError(f"the 'kind' parameter of fit_stage_loop must be one of {sorted(_LOSSES)}; got {kind!r}.")
-    fits = [_fit_one(kind, t, spec, config, n_outputs) for t in tasks]
+    from manireg._threads import torch_threads
+
+    with torch_threads(config.n_threads or 1):  # small nets: one thread is fastest, and fair on a shared machine
+        fits = [_fit_one(kind, t, spec, config, n_outputs) for t in tasks]
     return StageFit([r for r, _ in fits], "loop", lambda X, i: fits[i][1](X))
 
 
