@@ -310,7 +310,7 @@ def _fit_one(kind, task, spec, config, n_outputs):
         val_loss = float(_loss(kind, forward(tXv, best_state), tyv))
     result = {"train_loss": train_loss, "val_loss": val_loss, "steps": step + 1, "best_step": best_step,
               "stop_reason": stop, "seconds": time.perf_counter() - t0,
-              "n_parameters": int(sum(p.numel() for p in best_state))}
+              "n_parameters": int(sum(p.numel() for p in best_state)), "precision": "float32"}
 
     def predict(Xq):
         with torch.no_grad():
@@ -364,7 +364,8 @@ def fit_stage(kind, tasks, spec, config, n_outputs, *, implementation="auto") ->
     results = trainer.fit(tasks)
     out = [{"train_loss": float(r.train_loss), "val_loss": float(r.val_loss), "steps": int(r.steps),
             "best_step": int(r.best_step), "stop_reason": str(r.stop_reason), "seconds": float(r.seconds),
-            "n_parameters": int(r.n_parameters)} for r in results]
+            "n_parameters": int(r.n_parameters), "precision": str(getattr(r, "precision", "float32"))}
+           for r in results]
     return StageFit(out, "batched", lambda X, i: trainer.predict(X, replica=i))
 
 
@@ -588,7 +589,7 @@ class PolicyLearner(Learner):
                 row.update(steps=r["steps"], best_step=r["best_step"], stop_reason=r["stop_reason"],
                            n_parameters=r["n_parameters"], width=int(arch.width), depth=int(arch.depth),
                            late_best=bool(r["best_step"] >= 0.8 * self._configs()[0].max_steps),
-                           precision=stage.path)
+                           precision=r["precision"])
             rows.append(row)
         return rows
 
@@ -616,6 +617,10 @@ class PolicySpec:
         Cross-fitting folds of stage 1 (>= 2).
     clip : float or None, default=0.01
         Propensities below ``clip`` are raised to it in every weight (None: no clipping).
+    estimate_propensity : bool or None, default=None
+        Estimate the propensities with the softmax network even when the data carry logged ones. None:
+        estimate for synthetic data from ``generator`` (so the campaign measures the whole two-stage method)
+        and when nothing is logged; use logged propensities otherwise.
     """
 
     bandit: LoggedBandit | None = field(default=None, repr=False)
@@ -637,6 +642,7 @@ class PolicySpec:
     folds: int = DEFAULT_FOLDS
     clip: float | None = DEFAULT_CLIP
     dimension_source: str | None = None
+    estimate_propensity: bool | None = None
 
     def to_dict(self) -> dict:
         return {"task": "policy", "generator": self.generator,
@@ -644,7 +650,8 @@ class PolicySpec:
                 "learners": None if self.learners is None else [_coerce_learner(l).to_dict() for l in self.learners],
                 "test_fraction": self.test_fraction, "test_size": self.test_size,
                 "validation_fraction": self.validation_fraction, "seed": self.seed, "dimension": self.dimension,
-                "smoothness": self.smoothness, "name": self.name, "folds": self.folds, "clip": self.clip}
+                "smoothness": self.smoothness, "name": self.name, "folds": self.folds, "clip": self.clip,
+                "estimate_propensity": self.estimate_propensity}
 
 
 def _coerce_learner(value) -> LearnerSpec:
@@ -721,6 +728,13 @@ def prepare_policy(spec: PolicySpec) -> PolicyData:
         raise ValueError(f"{owner}.bandit must be a LoggedBandit; got {type(bandit).__name__}.")
     X, codes, r, p, names = check_logged(bandit.X, bandit.action, bandit.reward, bandit.propensity, owner=owner,
                                          action_names=bandit.action_names)
+    estimate = spec.estimate_propensity
+    if estimate is None:
+        estimate = spec.generator is not None
+    if estimate:
+        p = None
+    elif p is None and spec.estimate_propensity is False:
+        raise ValueError(f"{owner}: estimate_propensity=False needs logged propensities; the data carry none.")
     if bandit.dimension is not None and d is None:
         d, d_source = float(bandit.dimension), "generator"
     if bandit.smoothness is not None and s is None:
