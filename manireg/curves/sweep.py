@@ -50,6 +50,8 @@ ROW_COLUMNS = (
     "key", "campaign", "learner", "n", "repeat", "seed", "train_mse", "val_mse", "test_mse", "test_mse_clean",
     "steps", "best_step", "stop_reason", "late_best", "seconds", "n_parameters", "width", "depth",
     "width_multiplier", "precision", "status", "error", "created_at", "config_json",
+    # policy campaigns (manireg.curves.policy); empty for regression cells
+    "regret", "policy_value", "value_estimate", "value_se", "ess", "clipped_share", "overlap_json",
 )
 
 _GENERATORS = ("sphere", "graph_manifold", "torus", "swiss_roll", "helix", "rendered_objects")
