@@ -14,7 +14,8 @@ from manireg.curves.comparison import (
     compare_with_theory,
 )
 from manireg.curves.fitting import fit_exponent
-from manireg.curves.readout import read_out, working_dimension
+from manireg.curves.readout import read_out
+from manireg.geometry.summary import working_dimension
 from manireg.curves.simulation import errors_to_rows, simulate_errors
 
 SIZES = np.geomspace(100, 10_000, 7).round()
@@ -60,7 +61,8 @@ def test_read_out_is_one_call():
                                        seed=2)[0], SIZES, learner="knn"),
     ])
     out = read_out(rows, dimension=2.4, smoothness=1.5, ambient_dim=20, noise_estimate=0.003, floor="estimate")
-    assert out.working_dimension == 2 == working_dimension(2.4)
+    # one rounding of the working dimension, to two decimals and at least 1
+    assert out.working_dimension == 2.4 == working_dimension(2.4) and working_dimension(0.3) == 1.0
     assert set(out.theory) == {"net", "knn"} and out.learner_kinds == {"net": "net", "knn": "knn"}
     assert out.theory["knn"].predicted_exponent[0] < out.theory["net"].predicted_exponent[0]
     assert set(out.extrapolation) == {"net", "knn"}
@@ -70,5 +72,5 @@ def test_read_out_is_one_call():
     clean = rows.rename(columns={"test_mse": "test_mse_clean"})
     out2 = read_out(clean, dimension=2, smoothness=1.5, metric="test_mse_clean", floor="estimate")
     assert out2.floor is None
-    with pytest.raises(ValueError, match="noise_estimate"):
+    with pytest.raises(ValueError, match="needs the campaign's noise-variance estimate"):
         read_out(rows, dimension=2, smoothness=1.5, floor="estimate")
