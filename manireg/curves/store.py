@@ -42,7 +42,8 @@ _TYPES = {
     "test_mse_clean": "REAL", "steps": "INTEGER", "best_step": "INTEGER", "stop_reason": "TEXT",
     "late_best": "INTEGER", "seconds": "REAL", "n_parameters": "INTEGER", "width": "INTEGER", "depth": "INTEGER",
     "width_multiplier": "REAL", "precision": "TEXT", "status": "TEXT NOT NULL", "error": "TEXT", "created_at": "TEXT",
-    "config_json": "TEXT",
+    "config_json": "TEXT", "test_cross_entropy": "REAL", "excess_logistic_risk": "REAL", "test_error_rate": "REAL",
+    "excess_error_rate": "REAL", "calibration_error": "REAL",
 }
 #: Schema version written to ``PRAGMA user_version``; 0 is a store from before the campaign vocabulary.
 SCHEMA_VERSION = 1
