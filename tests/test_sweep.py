@@ -98,7 +98,7 @@ def test_repeats_below_one(data):
 
 
 def test_unknown_learner(data):
-    with pytest.raises(ValueError, match=r"must be one of \['kernel_ridge', 'knn', 'net'\]; got 'forest'"):
+    with pytest.raises(ValueError, match=r"must be one of \['kernel_ridge', 'knn', 'knn_classifier', 'logistic', 'net', 'net_classifier', 'policy'\]; got 'forest'"):
         prepare(_spec(data, learners=["forest"]))
 
 

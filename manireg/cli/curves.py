@@ -10,6 +10,10 @@ from ._readout import read_out, report_parts
 from .report import write
 
 HELP = "run or resume a learning-curve campaign on a data file and write its report"
+REGRESS = ("net", "knn", "kernel_ridge")
+CLASSIFY = ("net_classifier", "knn_classifier", "logistic")
+#: metrics a classification campaign fits, with the floor of each fit (the Bayes risk is unknown on real data)
+CLASSIFY_METRICS = ("test_error_rate", "test_cross_entropy")
 
 
 def add_parser(sub):
@@ -22,8 +26,11 @@ def add_parser(sub):
     p.add_argument("--dimension", type=float, metavar="d", help="intrinsic dimension d (default: the geometry read-out's consensus)")
     p.add_argument("--sizes", type=int, nargs="+", metavar="N", help="training sizes (default: a geometric grid)")
     p.add_argument("--repeats", type=int, default=5, metavar="R", help="repeats per size (default: %(default)s)")
-    p.add_argument("--learners", nargs="+", default=["net", "knn"], choices=["net", "knn", "kernel_ridge"],
-                   metavar="LEARNER", help="net, knn, kernel_ridge (default: net knn)")
+    p.add_argument("--task", default="regress", choices=["regress", "classify"],
+                   help="regress a numeric target, or classify labels (integers or strings) (default: %(default)s)")
+    p.add_argument("--learners", nargs="+", default=None, choices=list(REGRESS + CLASSIFY),
+                   metavar="LEARNER", help="regress: net, knn, kernel_ridge (default: net knn); classify: net_classifier, "
+                                           "knn_classifier, logistic (default: all three)")
     p.add_argument("--width-multipliers", type=float, nargs="+", metavar="M",
                    help="extra nets with these multiples of the rule's width (a capacity sweep; the rule's own width is always included)")
     p.add_argument("--sizing", nargs="+", metavar="NAME=VALUE", help="sizing constants of the nets, e.g. c_width=4 width_max=1024")
@@ -54,10 +61,10 @@ def learner_specs(names, width_multipliers=None, precision="auto", sizing=None):
         extra["constants"] = dict(sizing)
     specs = []
     for name in names:
-        if name == "net":
+        if name in ("net", "net_classifier"):
             mults = [1.0] + [float(m) for m in (width_multipliers or []) if float(m) != 1.0]
             for m in dict.fromkeys(mults):
-                specs.append(LearnerSpec("net", params={"width_multiplier": m, **extra}))
+                specs.append(LearnerSpec(name, params={"width_multiplier": m, **extra}))
         else:
             specs.append(LearnerSpec(name))
     return specs
@@ -84,13 +91,22 @@ def run(args) -> int:
         raise UsageError(f"--repeats must be >= 1; got {args.repeats}.")
     if args.no_geometry and args.dimension is None:
         raise UsageError("--no-geometry needs --dimension d: without the geometry read-out nothing estimates d.")
-    if args.width_multipliers and "net" not in args.learners:
-        raise UsageError("--width-multipliers sizes nets; add net to --learners.")
+    classify = args.task == "classify"
+    allowed = CLASSIFY if classify else REGRESS
+    if args.learners is None:
+        args.learners = list(CLASSIFY) if classify else ["net", "knn"]
+    wrong = [l for l in args.learners if l not in allowed]
+    if wrong:
+        raise UsageError(f"--learners {' '.join(wrong)} do not do --task {args.task}; use {', '.join(allowed)}.")
+    if args.width_multipliers and not {"net", "net_classifier"} & set(args.learners):
+        raise UsageError("--width-multipliers sizes nets; add net (or net_classifier) to --learners.")
     floor = parse_floor_option(args.floor)
     sizing = parse_sizing(args.sizing)
     s, s_range = smoothness_choice(args)
-    table = load(args, target_required=True)
-    check_sizes(args.sizes, table.n_samples, owner="--sizes")  # before any work or file
+    table = load_labelled(args) if classify else load(args, target_required=True)
+    test_size, sizes = check_sizes(args.sizes, table.n_samples, owner="--sizes")  # before any work or file
+    if classify:
+        check_classes(table, sizes[0])
     out = out_dir(args.out)
     geo = None
     if not args.no_geometry:
@@ -101,7 +117,7 @@ def run(args) -> int:
     name = args.campaign or "campaign"
     learners = learner_specs(args.learners, args.width_multipliers, args.precision, sizing)
     campaign = Campaign(X=table.X, y=table.y, sizes=args.sizes, repeats=args.repeats, learners=learners,
-                        dimension=d, smoothness=s, seed=args.seed, name=name, store=store,
+                        dimension=d, smoothness=s, seed=args.seed, name=name, store=store, task=args.task,
                         dimension_source="given" if args.dimension is not None else "geometry read-out (rounded consensus)",
                         dimension_interval=None if geo is None or args.dimension is not None else dimension_range(geo.dimension))
     extra = {"source": args.data, "target": args.target}
@@ -116,6 +132,8 @@ def run(args) -> int:
         say(f"resuming: {state['finished']} cells already in the store, {state['remaining']} to run")
     result = campaign.run(executor=executor, n_jobs=args.workers, scheduler=args.scheduler, progress=not args.quiet,
                           metadata=extra)
+    if classify:
+        return classification_read_out(result, args.seed)
     say(f"noise-variance estimate (first-neighbour, outside the test set): {result.noise_estimate:.4g}")
     parts = read_out(result, floor=floor, target_error=args.target_error, smoothness_range=s_range,
                      allow_unverified=args.allow_unverified, seed=args.seed)
@@ -126,4 +144,61 @@ def run(args) -> int:
     write(out, f"manireg curves: {os.path.basename(args.data)}",
           data={"source": args.data, "target": args.target, "n_samples": table.n_samples, "ambient_dim": table.X.shape[1]},
           geometry=geo, campaign=result, settings=settings, **parts)
+    return 0
+
+
+def load_labelled(args):
+    """The features (every column but --target, --drop and unlisted ones) and the --target column read as
+    class labels (integers or strings); prints the classes found. Bad labels: exit 2 (UsageError)."""
+    from types import SimpleNamespace
+
+    from ..data import load_table
+    from ..data.labels import encode_labels, read_label_column
+
+    if args.target is None:
+        raise UsageError("pass --target COL: the column of class labels.")
+    try:
+        raw = read_label_column(args.data, args.target)
+        codes, classes = encode_labels(raw, name=f"target column '{args.target}'", owner="--task classify")
+    except ValueError as exc:
+        raise UsageError(str(exc)) from None
+    drop = None if args.features else list(getattr(args, "drop", None) or []) + [args.target]
+    table = load_table(args.data, target=None, features=args.features, drop=drop)
+    if len(codes) != table.n_samples:
+        raise UsageError(f"--target '{args.target}' has {len(codes)} values but the table has {table.n_samples} rows.")
+    counts = [int((codes == i).sum()) for i in range(len(classes))]
+    shown = ", ".join(f"{c!r} ({k})" for c, k in list(zip(classes, counts))[:20])
+    say(f"data: {table.n_samples:,} rows x {table.X.shape[1]} feature columns from {args.data}; "
+        f"{len(classes)} classes in '{args.target}': {shown}{' ...' if len(classes) > 20 else ''}")
+    return SimpleNamespace(X=table.X, y=codes, n_samples=table.n_samples, classes=classes, counts=counts)
+
+
+def check_classes(table, smallest):
+    """At least two classes, and no class with fewer rows than the smallest size (exit 2 otherwise)."""
+    if len(table.classes) < 2:
+        raise UsageError(f"--task classify needs at least 2 classes; the target holds one ({table.classes[0]!r}).")
+    rare = [(c, k) for c, k in zip(table.classes, table.counts) if k < smallest]
+    if rare:
+        raise UsageError(
+            f"class {rare[0][0]!r} has {rare[0][1]} rows, fewer than the smallest size {smallest}; every class needs "
+            "at least as many rows as the smallest size (merge or drop rare classes, or lower --sizes)."
+        )
+
+
+def classification_read_out(result, seed) -> int:
+    """Exponents with intervals and verdicts of every learner on each classification metric (floor fitted:
+    the Bayes risk of real data is unknown), printed."""
+    from ..curves.fitting import fit_exponent
+    from ._common import captured_warnings
+
+    say()
+    with captured_warnings():
+        for metric in CLASSIFY_METRICS:
+            for learner in result.learners:
+                try:
+                    fit = fit_exponent(result.rows, learner, metric=metric, floor="fit", seed=seed)
+                except ValueError as exc:
+                    say(f"{learner} {metric}: no fit ({exc})")
+                    continue
+                say(f"[{metric}] {fit}")
     return 0

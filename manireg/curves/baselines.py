@@ -234,3 +234,69 @@ def kernel_ridge_regress(X_train, y_train, X_query, *, bandwidth, penalty, max_e
     A[np.diag_indices_from(A)] += 1e-10 * np.trace(A) / max_exact
     beta = scipy.linalg.solve(A, Knm.T @ yc, assume_a="pos")
     return ybar + np.exp(-gamma * _sq_dists(X_query, land)) @ beta
+
+
+def knn_class_proba(X_train, y_train, X_query, k, n_classes, smoothing=0.0) -> np.ndarray:
+    """Class probabilities of uniform-weight k-nearest-neighbour classification (Euclidean distance).
+
+    ``p_c(x) = (count_c + smoothing) / (k + n_classes * smoothing)``, ``count_c`` the neighbours of class c
+    among the ``k`` nearest training points. With ``smoothing=0`` this equals
+    :meth:`sklearn.neighbors.KNeighborsClassifier.predict_proba` with ``n_neighbors=k`` (up to the
+    tie-breaking order of equidistant points), and ``argmax`` its ``predict``. A positive smoothing (add-
+    ``smoothing`` estimate [2]_) keeps every probability above zero, so the cross-entropy stays finite.
+
+    Parameters
+    ----------
+    X_train : array of shape (n, D)
+    y_train : array of shape (n,)
+        Class codes in ``[0, n_classes)``.
+    X_query : array of shape (m, D)
+    k : int
+        Neighbours, in ``[1, n]``.
+    n_classes : int
+    smoothing : float, default=0.0
+
+    Returns
+    -------
+    ndarray of shape (m, n_classes)
+
+    References
+    ----------
+    .. [1] L. Devroye, L. Györfi, G. Lugosi, *A Probabilistic Theory of Pattern Recognition* (1996), Ch. 11.
+    .. [2] R. Krichevsky, V. Trofimov, IEEE Trans. Inform. Theory 27 (1981) (the add-1/2 estimate).
+    """
+    from sklearn.neighbors import NearestNeighbors
+
+    owner = "knn_class_proba"
+    X_train = check_points(X_train, name="X_train", owner=owner, min_samples=1)
+    y_train = check_target(y_train, X_train.shape[0], name="y_train", owner=owner).astype(np.int64)
+    X_query = check_points(X_query, name="X_query", owner=owner, min_samples=1)
+    k = check_int(k, "k", owner=owner, low=1, high=X_train.shape[0])
+    n_classes = check_int(n_classes, "n_classes", owner=owner, low=2)
+    if X_query.shape[1] != X_train.shape[1]:
+        raise ValueError(
+            f"{owner}: X_query has {X_query.shape[1]} features but X_train has {X_train.shape[1]}; they must match."
+        )
+    nn = NearestNeighbors(n_neighbors=k, algorithm="brute").fit(X_train)
+    idx = nn.kneighbors(X_query, return_distance=False)
+    labels = y_train[idx]  # (m, k)
+    counts = np.stack([(labels == c).sum(axis=1) for c in range(n_classes)], axis=1).astype(np.float64)
+    return (counts + smoothing) / (k + n_classes * smoothing)
+
+
+def logistic_proba(X_train, y_train, X_query, n_classes, C=1.0, seed=0) -> np.ndarray:
+    """Class probabilities of multinomial logistic regression on the standardised raw input (L2 penalty
+    ``1 / C``; scikit-learn's ``LogisticRegression``), columns for every class ``0..n_classes-1`` (a class
+    absent from the training rows gets probability 0)."""
+    from sklearn.linear_model import LogisticRegression
+    from sklearn.preprocessing import StandardScaler
+
+    scaler = StandardScaler().fit(X_train)
+    y = np.asarray(y_train).astype(np.int64)
+    P = np.zeros((len(X_query), n_classes))
+    if np.unique(y).size == 1:  # one class in the training rows: predict it
+        P[:, y[0]] = 1.0
+        return P
+    model = LogisticRegression(C=C, max_iter=1000, random_state=seed).fit(scaler.transform(X_train), y)
+    P[:, model.classes_] = model.predict_proba(scaler.transform(X_query))
+    return P

@@ -16,6 +16,20 @@ registry (:data:`LEARNER_KINDS`; extend it with :func:`register_learner`):
     Gaussian kernel ridge with bandwidth ``h = c_bandwidth * median distance * n^(-1/(2s+d))`` and penalty
     ``c_ridge * n^(-2s/(2s+d))``; Nyström above ``max_exact`` points (:mod:`manireg.curves.baselines`).
 
+Classification learners (campaign task ``"classify"``; each learner class says its task in ``task``):
+
+``"net_classifier"``
+    The same sized ReLU network with K outputs, trained by the batched trainer with ``loss="cross_entropy"``
+    (softmax probabilities; early stopping on the validation cross-entropy).
+``"knn_classifier"``
+    k-nearest-neighbour class frequencies with the rate rule ``k = ceil(c * n^(2s/(2s+d)))`` and add-
+    ``smoothing`` (default 1/2) counts, so the cross-entropy is finite (:func:`baselines.knn_class_proba`).
+``"logistic"``
+    Multinomial logistic regression on the standardised raw input (the ambient baseline; L2 penalty ``1/C``).
+
+Classification rows fill the columns of :data:`manireg.curves.metrics.CLASSIFICATION_COLUMNS` (the excess
+risks only where the campaign knows the Bayes probabilities); the regression columns stay empty.
+
 Every learner fits on the same points of a cell: the first ``n_fit = n - n_val`` of the cell's ``n``
 (``n_val = round(val_fraction * n)``), reports its validation MSE on the other ``n_val`` and its test MSE on
 the campaign's fixed test set. Nets use the validation part for early stopping; the baselines only report it.
@@ -39,8 +53,18 @@ import numpy as np
 
 from manireg.curves import baselines
 
-__all__ = ["LearnerSpec", "Learner", "NetLearner", "KNNLearner", "KernelRidgeLearner", "LEARNER_KINDS",
+__all__ = ["LearnerSpec", "Learner", "NetLearner", "KNNLearner", "KernelRidgeLearner", "NetClassifierLearner",
+           "KNNClassifierLearner", "LogisticLearner", "LEARNER_KINDS",
            "register_learner", "make_learner"]
+
+
+def _register_task_learners():
+    """Import the modules that register learners of other tasks (policy learning registers on import; it
+    cannot be imported at the top of this module without an import circle)."""
+    import importlib
+
+    for module in ("manireg.curves.policy",):
+        importlib.import_module(module)
 
 
 @dataclass
@@ -78,6 +102,8 @@ class LearnerSpec:
     params: dict = field(default_factory=dict)
 
     def __post_init__(self):
+        if isinstance(self.kind, str) and self.kind not in LEARNER_KINDS:
+            _register_task_learners()
         if not isinstance(self.kind, str) or self.kind not in LEARNER_KINDS:
             raise ValueError(
                 f"the 'kind' parameter of LearnerSpec must be one of {sorted(LEARNER_KINDS)}; got {self.kind!r}. "
@@ -116,13 +142,15 @@ class Learner:
     """Base class of a registered learner kind.
 
     Subclasses set ``kind``, ``allowed`` (parameter names), ``batchable`` (whether cells of one n go to one
-    call) and implement :meth:`resolve` (the full configuration, defaults included, that goes into the
-    cell key) and :meth:`run` (cells -> metric dicts).
+    call), ``task`` (``"regress"`` or ``"classify"``: the campaigns it can join) and implement
+    :meth:`resolve` (the full configuration, defaults included, that goes into the cell key) and
+    :meth:`run` (cells -> metric dicts).
     """
 
     kind = ""
     allowed: tuple = ()
     batchable = False
+    task = "regress"
 
     def __init__(self, spec: LearnerSpec):
         self.spec = spec
@@ -356,8 +384,118 @@ class KernelRidgeLearner(Learner):
         return out
 
 
+def _classification_row(proba_test, data, seconds, **extra):
+    from manireg.curves.metrics import classification_metrics
+
+    row = {"seconds": float(seconds)}
+    row.update(classification_metrics(proba_test, data.y_test.astype(np.int64), data.bayes_test))
+    row.update(extra)
+    return row
+
+
+class NetClassifierLearner(NetLearner):
+    """ReLU network with one output per class, trained with the cross-entropy loss (module docstring)."""
+
+    kind = "net_classifier"
+    task = "classify"
+
+    @classmethod
+    def allowed_params(cls):
+        return tuple(p for p in super().allowed_params() if p != "output_bound")
+
+    @classmethod
+    def default_name(cls, params) -> str:
+        wm = float(params.get("width_multiplier", 1.0))
+        return "net_classifier" if wm == 1.0 else f"net_classifier-w{wm:g}"
+
+    def _output_bound(self, data):
+        return None  # probabilities are not clipped
+
+    def resolve(self, context) -> dict:
+        out = super().resolve(context)
+        out.pop("output_bound")
+        out["loss"] = "cross_entropy"
+        return out
+
+    def cell_cost(self, n, data) -> float:
+        return super().cell_cost(n, data) * max(1.0, 0.5 * data.n_classes)
+
+    def run(self, cells, data) -> list:
+        from manireg.nets.training import BatchedTrainer, ReplicaTask
+
+        ns = {c.n for c in cells}
+        if len(ns) != 1:
+            raise ValueError(f"NetClassifierLearner.run: cells of one call must share n; got sizes {sorted(ns)}.")
+        train, _ = self._configs()
+        arch = self.architecture(cells[0].n, data)
+        tasks = []
+        for c in cells:
+            Xf, yf, Xv, yv = data.cell_split(c)
+            tasks.append(ReplicaTask(Xf, yf.astype(np.int64), Xv, yv.astype(np.int64), seed=int(c.seed)))
+        trainer = BatchedTrainer(arch, train, loss="cross_entropy", n_outputs=data.n_classes)
+        results = trainer.fit(tasks)
+        out = []
+        for i, r in enumerate(results):
+            out.append(_classification_row(
+                trainer.predict(data.X_test, replica=i), data, r.seconds, steps=int(r.steps),
+                best_step=int(r.best_step), stop_reason=str(r.stop_reason), late_best=bool(r.late_best),
+                n_parameters=int(r.n_parameters), width=int(arch.width), depth=int(arch.depth),
+                width_multiplier=float(self.spec.params.get("width_multiplier", 1.0)), precision=str(r.precision)))
+        return out
+
+
+class KNNClassifierLearner(KNNLearner):
+    """k-nearest-neighbour classification with the rate rule for k and smoothed class frequencies."""
+
+    kind = "knn_classifier"
+    task = "classify"
+    allowed = ("c", "k", "smoothing")
+
+    def resolve(self, context) -> dict:
+        out = super().resolve(context)
+        out["smoothing"] = float(self.spec.params.get("smoothing", 0.5))
+        return out
+
+    def run(self, cells, data) -> list:
+        smoothing = float(self.spec.params.get("smoothing", 0.5))
+        out = []
+        for c in cells:
+            t0 = time.perf_counter()
+            Xf, yf, _, _ = data.cell_split(c)
+            k = self.k_for(len(Xf), data)
+            P = baselines.knn_class_proba(Xf, yf, data.X_test, k, data.n_classes, smoothing=smoothing)
+            out.append(_classification_row(P, data, time.perf_counter() - t0))
+        return out
+
+
+class LogisticLearner(Learner):
+    """Multinomial logistic regression on the raw (standardised) input: the ambient baseline."""
+
+    kind = "logistic"
+    task = "classify"
+    allowed = ("C",)
+
+    def resolve(self, context) -> dict:
+        return {"C": float(self.spec.params.get("C", 1.0))}
+
+    def cell_cost(self, n, data) -> float:
+        return 200.0 * data.ambient_dim * max(2, data.n_classes) * n
+
+    def run(self, cells, data) -> list:
+        C = self.resolve(None)["C"]
+        out = []
+        for c in cells:
+            t0 = time.perf_counter()
+            Xf, yf, _, _ = data.cell_split(c)
+            P = baselines.logistic_proba(Xf, yf, data.X_test, data.n_classes, C=C, seed=int(c.seed) % (2**32))
+            out.append(_classification_row(P, data, time.perf_counter() - t0))
+        return out
+
+
 #: Registered learner kinds: kind -> Learner subclass.
-LEARNER_KINDS: dict = {"net": NetLearner, "knn": KNNLearner, "kernel_ridge": KernelRidgeLearner}
+LEARNER_KINDS: dict = {"net": NetLearner, "knn": KNNLearner, "kernel_ridge": KernelRidgeLearner,
+                       "net_classifier": NetClassifierLearner, "knn_classifier": KNNClassifierLearner,
+                       "logistic": LogisticLearner}
 
 
 def register_learner(cls) -> type:

@@ -44,6 +44,8 @@ _TYPES = {
     "width_multiplier": "REAL", "precision": "TEXT", "status": "TEXT NOT NULL", "error": "TEXT", "created_at": "TEXT",
     "config_json": "TEXT", "regret": "REAL", "policy_value": "REAL", "value_estimate": "REAL", "value_se": "REAL",
     "ess": "REAL", "clipped_share": "REAL", "overlap_json": "TEXT",
+    "config_json": "TEXT", "test_cross_entropy": "REAL", "excess_logistic_risk": "REAL", "test_error_rate": "REAL",
+    "excess_error_rate": "REAL", "calibration_error": "REAL",
 }
 #: Schema version written to ``PRAGMA user_version``; 0 is a store from before the campaign vocabulary.
 SCHEMA_VERSION = 1

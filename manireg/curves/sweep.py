@@ -36,7 +36,7 @@ from manireg._validation import check_float, check_int, check_points, check_targ
 from manireg.curves.learners import LearnerSpec, make_learner
 
 __all__ = ["CampaignSpec", "CampaignData", "Cell", "expand", "prepare", "check_sizes", "default_sizes", "canonical_json",
-           "ROW_COLUMNS", "DEFAULT_MIN_SIZE", "DEFAULT_N_SIZES", "MIN_SIZE"]
+           "ROW_COLUMNS", "TASKS", "DEFAULT_MIN_SIZE", "DEFAULT_N_SIZES", "MIN_SIZE"]
 
 #: Smallest size of the default grid (and the default grid never starts below it).
 DEFAULT_MIN_SIZE = 64
@@ -52,7 +52,12 @@ ROW_COLUMNS = (
     "width_multiplier", "precision", "status", "error", "created_at", "config_json",
     # policy campaigns (manireg.curves.policy); empty for regression cells
     "regret", "policy_value", "value_estimate", "value_se", "ess", "clipped_share", "overlap_json",
+    # classification cells (task "classify"; see manireg.curves.metrics)
+    "test_cross_entropy", "excess_logistic_risk", "test_error_rate", "excess_error_rate", "calibration_error",
 )
+
+#: Campaign tasks: regression on a numeric target, classification of labels.
+TASKS = ("regress", "classify")
 
 _GENERATORS = ("sphere", "graph_manifold", "torus", "swiss_roll", "helix", "rendered_objects")
 
@@ -128,6 +133,15 @@ class CampaignSpec:
         comparison carries it into each predicted exponent. Not part of the cell keys.
     name : str, default="campaign"
         Name of the campaign in the store (several campaigns can share one store).
+    task : {"regress", "classify"}, default="regress"
+        ``"classify"``: ``y`` holds class labels (integers or strings; coded ``0..K-1`` in sorted order,
+        :func:`manireg.data.labels.encode_labels`), the learners are classifiers (``"net_classifier"``,
+        ``"knn_classifier"``, ``"logistic"``) and rows carry the classification columns
+        (:mod:`manireg.curves.metrics`). Every class needs at least as many rows as the smallest size. A
+        ``generator`` then takes ``n_classes``, ``temperature`` and ``label_noise``
+        (:func:`manireg.data.labels.make_classification`).
+    bayes_proba : array of shape (N, K), optional
+        Exact class probabilities (synthetic data, task ``"classify"``); rows then carry the excess risks.
 
     References
     ----------
@@ -150,6 +164,8 @@ class CampaignSpec:
     name: str = "campaign"
     dimension_source: str | None = None
     dimension_interval: tuple | None = None
+    task: str = "regress"
+    bayes_proba: np.ndarray | None = field(default=None, repr=False)
 
     def to_dict(self) -> dict:
         """JSON-ready settings (arrays left out; the data is identified by its fingerprint elsewhere)."""
@@ -158,7 +174,7 @@ class CampaignSpec:
             "generator": self.generator, "sizes": None if self.sizes is None else [int(v) for v in self.sizes],
             "repeats": self.repeats, "learners": learners, "test_fraction": self.test_fraction,
             "test_size": self.test_size, "validation_fraction": self.validation_fraction, "seed": self.seed,
-            "dimension": self.dimension, "smoothness": self.smoothness, "name": self.name,
+            "dimension": self.dimension, "smoothness": self.smoothness, "name": self.name, "task": self.task,
             "dimension_source": self.dimension_source,
             "dimension_interval": None if self.dimension_interval is None else [float(v) for v in self.dimension_interval],
         }
@@ -209,6 +225,19 @@ class CampaignData:
     name: str
     noise_variance: float | None = None
     dimension_source: str = "given"
+    task: str = "regress"
+    classes: list | None = None
+    bayes_proba: np.ndarray | None = field(default=None, repr=False)
+
+    @property
+    def n_classes(self) -> int:
+        """Number of classes (0 for regression)."""
+        return 0 if self.classes is None else len(self.classes)
+
+    @property
+    def bayes_test(self):
+        """Exact class probabilities at the test points, or None."""
+        return None if self.bayes_proba is None else self.bayes_proba[self.test_idx]
 
     @property
     def X_test(self):
@@ -256,10 +285,11 @@ class CampaignData:
             "ambient_dim": self.ambient_dim, "dimension_source": self.dimension_source, "noise_variance": self.noise_variance,
             "n_total": int(len(self.X)), "test_size": int(len(self.test_idx)), "sizes": list(self.sizes),
             "repeats": self.repeats, "learners": [l.to_dict() for l in self.learners], "versions": versions,
+            "task": self.task, "classes": self.classes,
         }
 
 
-def _generate(gen: dict):
+def _generate(gen: dict, task: str = "regress"):
     from manireg.data import manifolds
     from manireg.data.targets import make_regression
 
@@ -272,10 +302,16 @@ def _generate(gen: dict):
     name = g.pop("manifold")
     if name not in _GENERATORS:
         raise ValueError(f"{owner}: unknown manifold {name!r}; known: {list(_GENERATORS)}.")
-    reg = {k: g.pop(k) for k in ("smoothness", "noise_std", "kind") if k in g}
+    classify = task == "classify"
+    own = ("smoothness", "n_classes", "temperature", "label_noise", "kind") if classify else ("smoothness", "noise_std", "kind")
+    reg = {k: g.pop(k) for k in own if k in g}
     seed = g.get("seed", 0)
     g["seed"] = seed
     sample = getattr(manifolds, name)(**g)
+    if classify:
+        from manireg.data.labels import make_classification
+
+        return make_classification(sample, seed=_seed_int(seed, 7), **reg)
     return make_regression(sample, seed=_seed_int(seed, 7), **reg)
 
 
@@ -336,12 +372,19 @@ def prepare(spec: CampaignSpec) -> CampaignData:
         raise ValueError(f"expected a CampaignSpec; got {type(spec).__name__}. Build one with CampaignSpec(X=..., y=...).")
     noise_variance = None
     d, s, d_source = spec.dimension, spec.smoothness, spec.dimension_source or "given"
+    task = spec.task
+    if task not in TASKS:
+        raise ValueError(f"the 'task' parameter of {owner} must be one of {list(TASKS)}; got {task!r}.")
+    bayes = spec.bayes_proba
     if spec.generator is not None:
         if spec.X is not None:
             raise ValueError(f"{owner}: give either X/y or generator, not both.")
-        sample = _generate(spec.generator)
-        X, y, f_clean = sample.X, sample.y, sample.f_clean
-        noise_variance = float(sample.noise_variance)
+        sample = _generate(spec.generator, task)
+        if task == "classify":
+            X, y, f_clean, bayes = sample.X, sample.y, None, sample.bayes_proba
+        else:
+            X, y, f_clean = sample.X, sample.y, sample.f_clean
+            noise_variance = float(sample.noise_variance)
         d = float(sample.dimension) if d is None else d
         s = float(sample.smoothness) if s is None else s
         d_source = "generator" if spec.dimension is None else d_source
@@ -350,6 +393,29 @@ def prepare(spec: CampaignSpec) -> CampaignData:
             raise ValueError(f"{owner}: no data; pass X and y (arrays), or generator={{'manifold': ...}}.")
         X, y, f_clean = spec.X, spec.y, spec.f_clean
     X = check_points(X, owner=owner, min_samples=2 * MIN_SIZE)
+    classes = None
+    if task == "classify":
+        from manireg.data.labels import encode_labels
+
+        codes, classes = encode_labels(y, name="y", owner=owner)
+        if len(codes) != X.shape[0]:
+            raise ValueError(f"{owner}: y has {len(codes)} labels but X has {X.shape[0]} rows; they must match.")
+        if len(classes) < 2:
+            raise ValueError(
+                f"{owner}: task 'classify' needs at least 2 classes; y holds one ({classes[0]!r}). "
+                "Check the target column."
+            )
+        y = codes.astype(np.float64)
+        if bayes is not None:
+            bayes = np.asarray(bayes, dtype=np.float64)
+            if bayes.shape != (X.shape[0], len(classes)) or not np.all(np.isfinite(bayes)) or \
+                    np.abs(bayes.sum(axis=1) - 1.0).max() > 1e-6 or bayes.min() < 0:
+                raise ValueError(
+                    f"the 'bayes_proba' parameter of {owner} must be an ({X.shape[0]}, {len(classes)}) array of "
+                    f"class probabilities (rows >= 0 summing to 1, columns in class order); got shape {bayes.shape}."
+                )
+    elif bayes is not None:
+        raise ValueError(f"the 'bayes_proba' parameter of {owner} applies to task='classify' only; got task={task!r}.")
     y = check_target(y, X.shape[0], owner=owner)
     if f_clean is not None:
         f_clean = check_target(f_clean, X.shape[0], name="f_clean", owner=owner)
@@ -360,9 +426,29 @@ def prepare(spec: CampaignSpec) -> CampaignData:
                                low_open=True)
     test_size, sizes = check_sizes(spec.sizes, N, test_fraction=spec.test_fraction, test_size=spec.test_size,
                                    owner=owner)
-    learners = [LearnerSpec("net")] if spec.learners is None else [LearnerSpec.coerce(l) for l in spec.learners]
+    default = "net_classifier" if task == "classify" else "net"
+    learners = [LearnerSpec(default)] if spec.learners is None else [LearnerSpec.coerce(l) for l in spec.learners]
     if not learners:
         raise ValueError(f"the 'learners' parameter of {owner} is empty; pass at least one learner, e.g. ['net'].")
+    from manireg.curves.learners import LEARNER_KINDS
+
+    wrong = [l.name for l in learners if getattr(LEARNER_KINDS[l.kind], "task", "regress") != task]
+    if wrong:
+        fits = sorted(k for k, c in LEARNER_KINDS.items() if getattr(c, "task", "regress") == task)
+        raise ValueError(
+            f"the 'learners' parameter of {owner} has learner(s) {wrong} that do not do task {task!r}; "
+            f"learners for {task!r}: {fits}."
+        )
+    if task == "classify":
+        counts = np.bincount(y.astype(np.int64), minlength=len(classes))
+        rare = [(classes[i], int(c)) for i, c in enumerate(counts) if c < sizes[0]]
+        if rare:
+            cls, cnt = rare[0]
+            raise ValueError(
+                f"{owner}: class {cls!r} has {cnt} rows, fewer than the smallest size {sizes[0]}"
+                f"{f' ({len(rare)} such classes)' if len(rare) > 1 else ''}; every class needs at least as many rows "
+                "as the smallest training size. Merge or drop rare classes, or start the sizes lower."
+            )
     names = [l.name for l in learners]
     dup = sorted({n for n in names if names.count(n) > 1})
     if dup:
@@ -380,13 +466,14 @@ def prepare(spec: CampaignSpec) -> CampaignData:
     name = spec.name
     if not isinstance(name, str) or not name:
         raise ValueError(f"the 'name' parameter of {owner} must be a non-empty str; got {name!r}.")
-    parts = [X, y] + ([] if f_clean is None else [f_clean])
+    parts = [X, y] + ([] if f_clean is None else [f_clean]) + ([] if bayes is None else [bayes])
     fingerprint = hashlib.sha256("".join(data_fingerprint(a) for a in parts).encode()).hexdigest()[:32]
     perm = np.random.default_rng(_seed_int(seed, 0)).permutation(N)
     return CampaignData(X=X, y=y, f_clean=f_clean, test_idx=np.sort(perm[:test_size]), pool_idx=perm[test_size:],
                      sizes=sizes, repeats=repeats, learners=learners, seed=seed, validation_fraction=validation_fraction,
                      dimension=d, smoothness=s, ambient_dim=D, fingerprint=fingerprint, name=name,
-                     noise_variance=noise_variance, dimension_source=d_source)
+                     noise_variance=noise_variance, dimension_source=d_source, task=task, classes=classes,
+                     bayes_proba=bayes)
 
 
 def expand(spec_or_data) -> list:
@@ -412,5 +499,7 @@ def expand(spec_or_data) -> list:
                 config = {"campaign": data.name, "learner": {"kind": spec.kind, "name": spec.name, "params": resolved},
                           "n": int(n), "repeat": int(r), "seed": int(seed), "split": split,
                           "dimension": float(data.dimension), "smoothness": float(data.smoothness), "data": data.fingerprint}
+                if data.task != "regress":  # regression keys stay as they were before tasks existed
+                    config["task"] = data.task
                 cells.append(Cell(spec, int(n), int(r), int(seed), _hash(config), data.name, config))
     return cells

@@ -43,6 +43,7 @@ from manireg._validation import (
     check_target,
 )
 from manireg.nets.builders import ReLUNetwork, build_network, init_parameters
+from manireg.nets.losses import LOSSES, output_gradient, probabilities, row_loss, stopping_loss
 from manireg.theory.sizing import ArchitectureSpec
 
 __all__ = ["TrainConfig", "ReplicaTask", "ReplicaResult", "BatchedTrainer", "lr_at_step", "auto_threads",
@@ -190,7 +191,10 @@ def lr_at_step(config: TrainConfig, step: int) -> float:
 @dataclass
 class ReplicaTask:
     """Data and seed of one replica. ``X_val``/``y_val`` may be None: the trainer then holds out
-    ``config.validation_fraction`` of the training data, chosen with ``seed``."""
+    ``config.validation_fraction`` of the training data, chosen with ``seed``.
+
+    ``y`` depends on the trainer's loss: ``"mse"`` float targets (n,); ``"cross_entropy"`` integer class
+    labels (n,) in ``[0, n_outputs)``; ``"policy"`` float scores (n, n_outputs), one per action."""
 
     X_train: np.ndarray
     y_train: np.ndarray
@@ -206,7 +210,8 @@ class ReplicaResult(ResultMixin):
     Attributes
     ----------
     train_mse, val_mse : float
-        MSE of the restored (best-validation) network on the training and validation data.
+        MSE of the restored (best-validation) network on the training and validation data (loss
+        ``"mse"``; NaN for the other losses).
     steps : int
         Optimiser steps taken.
     best_step : int
@@ -225,6 +230,12 @@ class ReplicaResult(ResultMixin):
         Nonzero weight entries of the restored network.
     precision : {"float32", "bfloat16"}
         Arithmetic of the training steps (see ``TrainConfig.precision``); the MSEs are float32 either way.
+    loss : {"mse", "cross_entropy", "policy"}
+        The trainer's loss (:mod:`manireg.nets.losses`).
+    train_loss, val_loss : float
+        Mean loss of the restored network on the training and validation rows, in float32: the MSE for
+        ``"mse"`` (equal to ``train_mse``/``val_mse``), the cross-entropy in nats for ``"cross_entropy"``,
+        minus the mean policy value for ``"policy"``.
     state : dict
         Trained weights and scalings (not in ``to_dict``); see :meth:`to_module`.
     """
@@ -242,12 +253,20 @@ class ReplicaResult(ResultMixin):
     seed: int
     nonzero_weights: int
     precision: str = "float32"
+    loss: str = "mse"
+    train_loss: float = math.nan
+    val_loss: float = math.nan
     state: dict = field(default_factory=dict, repr=False)
 
     _skip_in_dict = ("state",)
 
     def to_module(self) -> ReLUNetwork:
-        """The trained replica as a :class:`~manireg.nets.builders.ReLUNetwork` (eval mode)."""
+        """The trained replica as a :class:`~manireg.nets.builders.ReLUNetwork` (eval mode; loss ``"mse"``)."""
+        if self.loss != "mse":
+            raise ValueError(
+                f"ReplicaResult.to_module builds the one-output regression network; this replica was trained "
+                f"with loss={self.loss!r}. Use BatchedTrainer.predict for its probabilities."
+            )
         st = self.state
         net = build_network(
             st["spec"], seed=0, standardize=(st["x_mean"], st["x_std"]), target_scale=(st["y_mean"], st["y_scale"])
@@ -308,30 +327,89 @@ def resolve_precision(config, spec, rows) -> str:
     return "bfloat16" if native_bfloat16() else "float32"
 
 
-def _stacked_init(spec, seeds):
-    """Initial weights (R, in, out) and biases (R, 1, out) of one replica per seed, layer by layer."""
+def _stacked_init(spec, seeds, n_outputs=1):
+    """Initial weights (R, in, out) and biases (R, 1, out) of one replica per seed, layer by layer.
+
+    With ``n_outputs > 1`` the hidden layers are :func:`init_parameters`'s and the output layer (width,
+    n_outputs) is drawn Glorot-uniform from a generator of its own (derived from the seed)."""
     inits = [init_parameters(spec, seed=s) for s in seeds]
+    if n_outputs > 1:
+        inits = [ini[:-1] + [_output_init(spec.width, n_outputs, s)] for ini, s in zip(inits, seeds)]
     L = len(inits[0])
     Ws = [torch.stack([ini[l][0] for ini in inits]).contiguous() for l in range(L)]
     bs = [torch.stack([ini[l][1] for ini in inits])[:, None, :].contiguous() for l in range(L)]
     return Ws, bs
 
 
+def _output_init(width, n_outputs, seed):
+    """Glorot-uniform (width, n_outputs) output weights and zero biases, from the replica's stream 3."""
+    g = torch.Generator()
+    g.manual_seed(_derived_seed(seed, 3))
+    bound = math.sqrt(6.0 / (width + n_outputs))
+    W = (torch.rand(width, n_outputs, generator=g, dtype=torch.float32) * 2.0 - 1.0) * bound
+    return W, torch.zeros(n_outputs, dtype=torch.float32)
+
+
 def _derived_seed(seed: int, stream: int) -> int:
     return int(np.random.SeedSequence([int(seed), stream]).generate_state(1, dtype=np.uint64)[0] >> 1)
+
+
+def _check_task_target(y, n_rows, name, owner, loss, n_outputs):
+    """A replica's targets as float64: (n,) for "mse", one-hot (n, K) rows for "cross_entropy" (from
+    integer labels in [0, K)), (n, K) scores for "policy"."""
+    if loss == "mse":
+        return check_target(y, n_rows, name=name, owner=owner)
+    K = n_outputs
+    if loss == "cross_entropy":
+        try:
+            arr = np.asarray(y)
+            lab = arr.astype(np.float64)
+        except (TypeError, ValueError):
+            raise DataValidationError(
+                f"{owner}: {name} must hold integer class labels in [0, {K}); got values that are not "
+                "numbers. Encode the classes as 0..K-1 first."
+            ) from None
+        if lab.ndim != 1 or lab.shape[0] != n_rows:
+            raise DataValidationError(
+                f"{owner}: {name} must be a 1-D vector of {n_rows} class labels (one per row of X); "
+                f"got shape {lab.shape}."
+            )
+        bad = ~np.isfinite(lab) | (lab != np.round(lab)) | (lab < 0) | (lab >= K)
+        if bad.any():
+            i = int(np.flatnonzero(bad)[0])
+            raise DataValidationError(
+                f"{owner}: {name} must hold integer class labels in [0, {K}) for n_outputs={K}; "
+                f"row {i} holds {arr[i]!r} ({int(bad.sum())} such rows). Encode the classes as 0..K-1, "
+                "or raise n_outputs to the number of classes."
+            )
+        onehot = np.zeros((n_rows, K))
+        onehot[np.arange(n_rows), lab.astype(np.int64)] = 1.0
+        return onehot
+    try:
+        arr = np.asarray(y, dtype=np.float64)
+    except (TypeError, ValueError) as exc:
+        raise DataValidationError(f"{owner}: {name} must be numeric action scores ({exc}).") from None
+    if arr.shape != (n_rows, K):
+        raise DataValidationError(
+            f"{owner}: {name} must be an (n, n_outputs) array of action scores, here ({n_rows}, {K}); "
+            f"got shape {arr.shape}."
+        )
+    if not np.all(np.isfinite(arr)):
+        raise DataValidationError(f"{owner}: {name} has non-finite action scores. Remove those rows first.")
+    return np.ascontiguousarray(arr)
 
 
 class _Prepared:
     """One replica's validated, standardised float32 data."""
 
-    def __init__(self, task, index, config, input_dim, owner):
+    def __init__(self, task, index, config, input_dim, owner, loss="mse", n_outputs=1):
         if not isinstance(task, ReplicaTask):
             raise ValueError(f"{owner}: tasks[{index}] must be a ReplicaTask; got {type(task).__name__}.")
         seed = task.seed
         if isinstance(seed, bool) or not isinstance(seed, numbers.Integral) or seed < 0:
             raise ValueError(f"{owner}: tasks[{index}].seed must be a non-negative int; got {seed!r}.")
         X = check_points(task.X_train, name=f"tasks[{index}].X_train", min_samples=2, owner=owner)
-        y = check_target(task.y_train, len(X), name=f"tasks[{index}].y_train", owner=owner)
+        y = _check_task_target(task.y_train, len(X), f"tasks[{index}].y_train", owner, loss, n_outputs)
         if X.shape[1] != input_dim:
             raise DataValidationError(
                 f"{owner}: tasks[{index}].X_train has {X.shape[1]} columns but spec.input_dim is {input_dim}. "
@@ -350,7 +428,7 @@ class _Prepared:
             X, y = X[perm[n_val:]], y[perm[n_val:]]
         else:
             Xv = check_points(task.X_val, name=f"tasks[{index}].X_val", min_samples=1, owner=owner)
-            yv = check_target(task.y_val, len(Xv), name=f"tasks[{index}].y_val", owner=owner)
+            yv = _check_task_target(task.y_val, len(Xv), f"tasks[{index}].y_val", owner, loss, n_outputs)
             if Xv.shape[1] != input_dim:
                 raise DataValidationError(
                     f"{owner}: tasks[{index}].X_val has {Xv.shape[1]} columns; expected {input_dim}."
@@ -361,7 +439,7 @@ class _Prepared:
         self.x_mean = X.mean(axis=0)
         std = X.std(axis=0)
         self.x_std = np.where(std > 1e-12 * max(1.0, float(np.abs(X).max())), std, 1.0)
-        if config.standardize_target:
+        if config.standardize_target and loss == "mse":
             self.y_mean = float(y.mean())
             ys = float(y.std())
             self.y_scale = ys if ys > 1e-12 * max(1.0, float(np.abs(y).max())) else 1.0
@@ -393,8 +471,12 @@ def _row_weights(counts, length):
     return w
 
 
-def _loss_grads(Ws, bs, x, y, w, low=None):
-    """Gradients of ``sum_r sum_i w_ri (z_ri - y_ri)^2`` for the stacked net, by hand (no autograd).
+def _loss_grads(Ws, bs, x, y, w, low=None, loss="mse"):
+    """Gradients of ``sum_r sum_i w_ri loss(z_ri, y_ri)`` for the stacked net, by hand (no autograd).
+
+    ``loss`` is one of :data:`manireg.nets.losses.LOSSES` (default ``"mse"``, ``(z - y)^2``); the output
+    gradient comes from :func:`manireg.nets.losses.output_gradient`. ``y``: (R, B) for ``"mse"``,
+    (R, B, K) one-hot labels or action scores otherwise.
 
     ``w`` is a (R, B) tensor of row weights or a float (the same weight for every row). Returns the weight
     gradients (R, in, out) followed by the bias gradients (R, 1, out), in the order of ``Ws + bs``, all in
@@ -415,9 +497,24 @@ def _loss_grads(Ws, bs, x, y, w, low=None):
     for i in range(last):
         hs.append(torch.baddbmm(bc[i], hs[-1], Wc[i]).clamp_min_(0.0).to(dt[i + 1]))
     z = _output_layer(hs[last], Ws[last], bs[last])
-    g = z.sub_(y.unsqueeze(-1)).mul_(2.0 * w if isinstance(w, float) else 2.0 * w.unsqueeze(-1))
+    g = output_gradient(loss, z, y, w)
     gW, gb = [None] * len(Ws), [None] * len(Ws)
-    for i in range(last, -1, -1):
+    if g.shape[-1] > 1:
+        # K > 1 outputs: the output layer's products one output column at a time, as products and sums
+        # (the stack-independent form of _output_layer; a bmm may pick its kernel from the stack height)
+        h = hs[last]
+        cols = [g[:, :, k:k + 1] for k in range(g.shape[-1])]
+        gW[last] = torch.stack([(h * c).sum(dim=1) for c in cols], dim=-1)
+        gb[last] = g.sum(dim=1, keepdim=True, dtype=torch.float32)
+        if last > 0:
+            back = cols[0] * Wc[last][:, None, :, 0]
+            for k in range(1, len(cols)):
+                back.add_(cols[k] * Wc[last][:, None, :, k])
+            g = torch.ops.aten.threshold_backward(back, h, 0.0).to(dt[last - 1])
+        top = last - 1
+    else:
+        top = last
+    for i in range(top, -1, -1):
         gW[i] = torch.bmm(hs[i].transpose(1, 2), g).float()
         gb[i] = g.sum(dim=1, keepdim=True, dtype=torch.float32)
         if i > 0:
@@ -438,8 +535,8 @@ def _layer_dtypes(n_layers, low):
 
 
 def _forward(Ws, bs, x, low=None):
-    """Stacked forward pass: x (R, B, D) -> (R, B) in standardised target units (``low`` as in
-    :func:`_loss_grads`)."""
+    """Stacked forward pass: x (R, B, D) -> (R, B) in standardised target units for a one-output net, or
+    (R, B, K) scores for K > 1 outputs (``low`` as in :func:`_loss_grads`)."""
     last = len(Ws) - 1
     dt = _layer_dtypes(len(Ws), low)
     h = x
@@ -449,13 +546,16 @@ def _forward(Ws, bs, x, low=None):
 
 
 def _output_layer(h, W, b):
-    """The width-1 output layer, ``h @ W + b`` for h (R, B, w), W (R, w, 1), b (R, 1, 1).
+    """The output layer, ``h @ W + b`` for h (R, B, w), W (R, w, K), b (R, 1, K).
 
     Written as a product and a row sum, not ``baddbmm``: a one-column matrix product takes a
     matrix-vector kernel when the stack holds a single replica and a batched one otherwise, and the two
     round differently, so a replica's numbers would change when the others stop or sit in another stack.
+    K > 1 outputs use the same form, one row sum per output (an (R, B, K, w) product), for the same reason.
     """
-    return (h * W.transpose(1, 2)).sum(dim=-1, keepdim=True).add_(b)
+    if W.shape[-1] == 1:
+        return (h * W.transpose(1, 2)).sum(dim=-1, keepdim=True).add_(b)
+    return torch.stack([(h * W[:, None, :, k]).sum(dim=-1) for k in range(W.shape[-1])], dim=-1).add_(b)
 
 
 class BatchedTrainer:
@@ -469,6 +569,15 @@ class BatchedTrainer:
         pruning.
     config : TrainConfig, optional
         Defaults when None.
+    loss : {"mse", "cross_entropy", "policy"}, default="mse"
+        ``"mse"``: regression (one output). ``"cross_entropy"``: multinomial logistic regression on
+        ``n_outputs = K >= 2`` classes (binary is K = 2); task targets are integer labels in ``[0, K)``.
+        ``"policy"``: maximise the mean over rows of ``sum_a softmax(z)_a Gamma_a`` over ``n_outputs = K``
+        actions; task targets are (n, K) scores ``Gamma``. See :mod:`manireg.nets.losses`. Not a
+        :class:`TrainConfig` field: the loss is a property of the task, not a training setting.
+        ``config.standardize_target`` and ``spec.output_bound`` apply to ``"mse"`` only.
+    n_outputs : int, default=1
+        Width of the output layer: 1 for ``"mse"``, the number of classes or actions otherwise.
 
     Notes
     -----
@@ -499,7 +608,7 @@ class BatchedTrainer:
     (2, 5)
     """
 
-    def __init__(self, spec, config=None):
+    def __init__(self, spec, config=None, *, loss="mse", n_outputs=1):
         if not isinstance(spec, ArchitectureSpec):
             raise ValueError(
                 f"the 'spec' parameter of BatchedTrainer must be an ArchitectureSpec; got {type(spec).__name__}. "
@@ -511,8 +620,22 @@ class BatchedTrainer:
             raise ValueError(
                 f"the 'config' parameter of BatchedTrainer must be a TrainConfig or None; got {type(config).__name__}."
             )
+        loss = check_choice(loss, "loss", owner="BatchedTrainer", choices=LOSSES)
+        n_outputs = check_int(n_outputs, "n_outputs", owner="BatchedTrainer", low=1)
+        if loss == "mse" and n_outputs != 1:
+            raise ValueError(
+                f"the 'n_outputs' parameter of BatchedTrainer must be 1 for loss='mse' (one target); got "
+                f"{n_outputs}. Use loss='cross_entropy' or 'policy' for K outputs."
+            )
+        if loss != "mse" and n_outputs < 2:
+            raise ValueError(
+                f"the 'n_outputs' parameter of BatchedTrainer must be >= 2 for loss={loss!r} (the number of "
+                f"classes or actions; binary classification is 2); got {n_outputs}."
+            )
         self.spec = spec
         self.config = config
+        self.loss = loss
+        self.n_outputs = n_outputs
 
     # ------------------------------------------------------------------ public
     def fit(self, tasks):
@@ -530,7 +653,8 @@ class BatchedTrainer:
         tasks = list(tasks)
         if not tasks:
             raise ValueError(f"the 'tasks' parameter of {owner} must hold at least one ReplicaTask; got none.")
-        prepared = [_Prepared(t, i, self.config, self.spec.input_dim, owner) for i, t in enumerate(tasks)]
+        prepared = [_Prepared(t, i, self.config, self.spec.input_dim, owner, self.loss, self.n_outputs)
+                    for i, t in enumerate(tasks)]
         groups = {}
         for i, p in enumerate(prepared):
             key = ("full", p.n) if p.full else ("mini", p.batch)
@@ -551,7 +675,8 @@ class BatchedTrainer:
         return results
 
     def predict(self, X, replica=None):
-        """Predictions of the trained replicas (clipped, target units).
+        """Predictions of the trained replicas: clipped values in target units (loss ``"mse"``), or class /
+        action probabilities (the softmax of the output layer) for the other losses.
 
         Parameters
         ----------
@@ -561,7 +686,8 @@ class BatchedTrainer:
 
         Returns
         -------
-        ndarray of shape (R, m), or (m,) when ``replica`` is given.
+        ndarray of shape (R, m), or (m,) when ``replica`` is given; (R, m, K) or (m, K) for the
+        ``"cross_entropy"`` and ``"policy"`` losses.
         """
         if not hasattr(self, "results_"):
             raise RuntimeError("BatchedTrainer.predict needs a fitted trainer; call fit(tasks) first.")
@@ -591,6 +717,9 @@ class BatchedTrainer:
         Ws = [torch.from_numpy(np.stack([s["weights"][l] for s in states])) for l in range(L)]
         bs = [torch.from_numpy(np.stack([s["biases"][l] for s in states]))[:, None, :] for l in range(L)]
         z = _forward(Ws, bs, x)
+        if self.loss != "mse":
+            P = probabilities(z).numpy().astype(np.float64)
+            return P / P.sum(axis=-1, keepdims=True)  # rows sum to 1 in float64, not only in float32
         ym = torch.tensor([s["y_mean"] for s in states], dtype=torch.float32)[:, None]
         ysc = torch.tensor([s["y_scale"] for s in states], dtype=torch.float32)[:, None]
         pred = ym + ysc * z
@@ -606,9 +735,10 @@ class BatchedTrainer:
         t0 = time.perf_counter()
         full = reps[0].full
         bound = spec.output_bound
-        clip = math.isfinite(bound)
+        loss = self.loss
+        clip = math.isfinite(bound) and loss == "mse"
         # ---- parameters: (R, in, out) weights, (R, 1, out) biases, one init generator per replica
-        Ws, bs = _stacked_init(spec, [_derived_seed(p.seed, 0) for p in reps])
+        Ws, bs = _stacked_init(spec, [_derived_seed(p.seed, 0) for p in reps], self.n_outputs)
         L = len(Ws)
         params = Ws + bs
         m1 = [torch.zeros_like(p) for p in params]
@@ -639,7 +769,7 @@ class BatchedTrainer:
             idx_chunk = None  # drawn at step 0 (step % chunk == 0), before any use
             chunk = 64
             flat_X = X.reshape(R * n_max, -1)
-            flat_Y = Y.reshape(R * n_max)
+            flat_Y = Y.reshape(R * n_max, *Y.shape[2:])
             w_mb = 1.0 / B
         # ---- bookkeeping (per active replica)
         active = list(range(R))
@@ -653,7 +783,10 @@ class BatchedTrainer:
         wb = spec.weight_bound
 
         def val_mse():
+            """The validation loss early stopping tracks (the MSE for "mse"; see losses.stopping_loss)."""
             z = _forward(params[:L], params[L:], Xv, low)
+            if loss != "mse":
+                return (stopping_loss(loss, z, Yv) * wv).sum(dim=1)
             pred = ym + ysc * z
             if clip:
                 pred = pred.clamp(-bound, bound)
@@ -667,6 +800,8 @@ class BatchedTrainer:
             def restored_mse(X, y):
                 """MSE (target units, clipped) of the restored float32 network on one replica's rows."""
                 z = _forward([w[None] for w in Wb], [b[None, None] for b in bb], X[None])[0]
+                if loss != "mse":
+                    return float(row_loss(loss, z, y).mean())
                 pred = p.y_mean + p.y_scale * z
                 if clip:
                     pred = pred.clamp(-bound, bound)
@@ -675,7 +810,7 @@ class BatchedTrainer:
             train_mse = restored_mse(p.X, p.y_raw)
             # in mixed precision the tracked validation MSE came from bfloat16 passes: report the restored
             # float32 network's own, like train_mse
-            val = float(best_val[local]) if low is None else restored_mse(p.Xv, p.yv)
+            val = float(best_val[local]) if low is None and loss == "mse" else restored_mse(p.Xv, p.yv)
             state = {
                 "spec": spec,
                 "weights": [w.numpy() for w in Wb],
@@ -687,8 +822,8 @@ class BatchedTrainer:
             }
             bst = int(best_step[local])
             results[r] = ReplicaResult(
-                train_mse=train_mse,
-                val_mse=val,
+                train_mse=train_mse if loss == "mse" else math.nan,
+                val_mse=val if loss == "mse" else math.nan,
                 steps=int(step),
                 best_step=bst,
                 stop_reason=reason,
@@ -700,6 +835,9 @@ class BatchedTrainer:
                 seed=p.seed,
                 nonzero_weights=int(sum(int(torch.count_nonzero(w)) for w in Wb)),
                 precision=precision,
+                loss=loss,
+                train_loss=train_mse,
+                val_loss=val,
                 state=state,
             )
 
@@ -744,7 +882,8 @@ class BatchedTrainer:
                         X, Y, wtrain = X[ki], Y[ki], wtrain[ki]
                     else:
                         X, Y = X[ki].contiguous(), Y[ki].contiguous()
-                        flat_X, flat_Y = X.reshape(len(keep) * n_max, -1), Y.reshape(len(keep) * n_max)
+                        flat_X = X.reshape(len(keep) * n_max, -1)
+                        flat_Y = Y.reshape(len(keep) * n_max, *Y.shape[2:])
                         gens = [gens[i] for i in keep]
                         buffers = [buffers[i] for i in keep]
                         if step % chunk != 0:
@@ -766,9 +905,9 @@ class BatchedTrainer:
                 offsets = torch.arange(Ra, dtype=torch.int64)[:, None] * n_max
                 flat = (idx_chunk[:, step % chunk, :] + offsets).reshape(-1)
                 xb = flat_X.index_select(0, flat).view(Ra, B, -1)
-                yb = flat_Y.index_select(0, flat).view(Ra, B)
+                yb = flat_Y.index_select(0, flat).view(Ra, B, *Y.shape[2:])
                 wb_rows = None
-            grads = _loss_grads(params[:L], params[L:], xb, yb, w_mb if wb_rows is None else wb_rows, low)
+            grads = _loss_grads(params[:L], params[L:], xb, yb, w_mb if wb_rows is None else wb_rows, low, loss)
             step += 1
             adam_step.fill_(step)
             # One fused kernel call for the whole Adam update [1]_ (same formula as torch.optim.Adam:

@@ -8,7 +8,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .curves import _axes, plot_learning_curves
+from ._common import new_axes
+from .curves import plot_learning_curves
 
 __all__ = ["plot_regret_curves", "plot_overlap", "plot_policy_map", "plot_value_estimates", "policy_sections"]
 
@@ -25,7 +26,7 @@ def plot_regret_curves(rows, fits=None, *, ax=None, title=None):
 
 def plot_value_estimates(rows, *, optimal_value=None, ax=None):
     """Doubly robust value estimates of the learned policies (mean over repeats, +- 2 mean standard errors)."""
-    fig, ax = _axes(ax)
+    fig, ax = new_axes(ax, (6.4, 4.2))
     ok = rows[(rows["status"] == "ok") & rows["value_estimate"].notna()]
     for learner, sub in ok.groupby("learner"):
         g = sub.groupby("n")
@@ -46,7 +47,7 @@ def plot_value_estimates(rows, *, optimal_value=None, ax=None):
 def plot_overlap(overlap: dict, *, ax=None):
     """Histogram of the propensities of the taken actions (largest size), with the clipping level and the
     effective sample size per size in the title."""
-    fig, ax = _axes(ax, figsize=(6.4, 3.8))
+    fig, ax = new_axes(ax, (6.4, 3.8))
     edges = np.asarray(overlap.get("edges") or np.linspace(0, 1, 21))
     if overlap.get("sizes"):
         counts = np.asarray(overlap["counts"][-1], dtype=float)
@@ -130,7 +131,7 @@ def policy_sections(result, fits=None, policy_map=None):
             "alone, with its interval and verdict.")
         if fits is not None and len(fits):
             sec.tables.append(("Regret exponents", exponent_table_frame(fits).drop(
-                columns=["predicted 2s/(2s+d)", "ambient 2s/(2s+D)", "implied d (given s)", "implied s (given d)"])))
+                columns=["predicted exponent 2s/(2s+d)", "ambient exponent 2s/(2s+D)", "implied d (given s)", "implied s (given d)"])))
         for name, why in (result.unfitted() if hasattr(result, "unfitted") else {}).items():
             sec.paragraphs.append(f"Not measured for {name}: {why}")
         sec.figures.append(("policy_regret", plot_regret_curves(result.rows, fits), "Regret against n"))
