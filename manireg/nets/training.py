@@ -31,6 +31,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import torch
 
+from manireg._random import derive_seed
 from manireg._threads import torch_threads
 
 from manireg._results import ResultMixin
@@ -317,10 +318,6 @@ def _stacked_init(spec, seeds):
     return Ws, bs
 
 
-def _derived_seed(seed: int, stream: int) -> int:
-    return int(np.random.SeedSequence([int(seed), stream]).generate_state(1, dtype=np.uint64)[0] >> 1)
-
-
 class _Prepared:
     """One replica's validated, standardised float32 data."""
 
@@ -338,7 +335,7 @@ class _Prepared:
                 "Size the spec with input_dim=X.shape[1]."
             )
         if task.X_val is None:
-            rng = np.random.default_rng(_derived_seed(seed, 2))
+            rng = np.random.default_rng(derive_seed(seed, 2))
             perm = rng.permutation(len(X))
             n_val = max(1, int(round(config.validation_fraction * len(X))))
             if len(X) - n_val < 2:
@@ -608,7 +605,7 @@ class BatchedTrainer:
         bound = spec.output_bound
         clip = math.isfinite(bound)
         # ---- parameters: (R, in, out) weights, (R, 1, out) biases, one init generator per replica
-        Ws, bs = _stacked_init(spec, [_derived_seed(p.seed, 0) for p in reps])
+        Ws, bs = _stacked_init(spec, [derive_seed(p.seed, 0) for p in reps])
         L = len(Ws)
         params = Ws + bs
         m1 = [torch.zeros_like(p) for p in params]
@@ -633,7 +630,7 @@ class BatchedTrainer:
             gens = []
             for p in reps:
                 g = torch.Generator()
-                g.manual_seed(_derived_seed(p.seed, 1))
+                g.manual_seed(derive_seed(p.seed, 1))
                 gens.append(g)
             buffers = [torch.empty(0, dtype=torch.int64) for _ in reps]
             idx_chunk = None  # drawn at step 0 (step % chunk == 0), before any use
