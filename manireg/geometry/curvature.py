@@ -35,7 +35,7 @@ import numpy as np
 
 from .._results import ResultMixin
 from .._validation import DataValidationError, check_int, check_points, make_rng
-from .charts import _representatives, local_pca, resolve_dimension
+from .tangent import local_pca, representative_rows, resolve_dimension
 from .neighbors import kneighbors
 
 __all__ = ["CurvatureReport", "estimate_curvature", "second_fundamental_form", "max_principal_curvature"]
@@ -209,7 +209,7 @@ def estimate_curvature(
     graph = kneighbors(X, k, owner=owner, random_state=0)
     P = graph.points
     m = P.shape[0]
-    rep = _representatives(graph.inverse, m)
+    rep = representative_rows(graph.inverse, m)
     rng = make_rng(random_state)
     if landmarks is None:
         n_landmarks = check_int(n_landmarks, "n_landmarks", owner=owner, low=1)

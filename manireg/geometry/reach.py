@@ -42,7 +42,7 @@ import numpy as np
 
 from .._results import ResultMixin
 from .._validation import DataValidationError, check_float, check_int, check_points, make_rng, warn
-from .charts import RADIUS_FACTOR, _representatives, local_pca, resolve_dimension
+from .tangent import RADIUS_FACTOR, local_pca, representative_rows, resolve_dimension
 from .neighbors import kneighbors
 
 __all__ = ["ReachEstimate", "estimate_reach", "reach_from_tangents", "default_reach_neighbors"]
@@ -230,7 +230,7 @@ def estimate_reach(
     n_neighbors = graph.k
     P = graph.points
     m = P.shape[0]
-    rep = _representatives(graph.inverse, m)
+    rep = representative_rows(graph.inverse, m)
     rng = make_rng(random_state)
     if n_base is None or n_base >= m:
         base = np.arange(m)

@@ -26,7 +26,7 @@ import numpy as np
 
 from .._results import ResultMixin
 from .._validation import check_float, check_points
-from .charts import RADIUS_FACTOR, resolve_dimension
+from .tangent import RADIUS_FACTOR, resolve_dimension
 from .neighbors import kneighbors
 
 __all__ = ["ResolutionCheck", "resolution_check", "MAX_SPACING_RATIO"]
