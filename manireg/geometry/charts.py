@@ -33,7 +33,7 @@ import numpy as np
 
 from .._results import ResultMixin
 from .._validation import check_float, check_int, check_points, make_rng, warn
-from .neighbors import kneighbors
+from .neighbors import index_seed, kneighbors
 from .reach import default_reach_neighbors, estimate_reach
 from .tangent import RADIUS_FACTOR, local_pca, representative_rows, resolve_dimension
 
@@ -219,7 +219,8 @@ class ChartAtlas:
         Neighbourhood size for the reach estimate behind the default radius (``None``: that estimate's
         rule, sqrt(n) clipped to [20, 100]).
     random_state : int
-        Seed of the first landmark (and of the reach estimate's base-point subsample).
+        Seed of the first landmark, of the reach estimate's base-point subsample, of the dimension estimate
+        (when ``dimension`` is None) and of the approximate neighbour index (large samples).
 
     Attributes
     ----------
@@ -271,7 +272,8 @@ class ChartAtlas:
             check_int(self.n_neighbors, "n_neighbors", owner=owner, low=2)
         if self.radius is not None:
             check_float(self.radius, "radius", owner=owner, low=0.0, low_open=True)
-        d, source = resolve_dimension(X, self.dimension, owner=owner, n_features=X.shape[1])
+        seed = index_seed(self.random_state)
+        d, source = resolve_dimension(X, self.dimension, owner=owner, n_features=X.shape[1], seed=seed)
         if min_points <= d:
             raise ValueError(
                 f"the 'min_points' parameter of {owner} must exceed the dimension ({d}) so that a chart's PCA "
@@ -280,7 +282,7 @@ class ChartAtlas:
         n_neighbors = default_reach_neighbors(X.shape[0]) if self.n_neighbors is None else self.n_neighbors
         # one neighbour query serves the radius floor, sparse charts and the reach estimate (cached)
         k = min(max(min_points, n_neighbors), X.shape[0] - 1)
-        graph = kneighbors(X, k, owner=owner, random_state=0)
+        graph = kneighbors(X, k, owner=owner, random_state=seed)
         P = graph.points
         m = P.shape[0]
         rep = representative_rows(graph.inverse, m)
@@ -423,7 +425,7 @@ def chart_counts(X, radii=None, *, fit_range=None, min_count=8, max_fraction=0.0
     max_fraction : float in (0, 1]
         Upper count of the default fit range, as a fraction of the number of distinct points.
     random_state : int
-        Seed of the first landmark.
+        Seed of the first landmark and of the approximate neighbour index (large samples).
 
     Returns
     -------
@@ -439,7 +441,8 @@ def chart_counts(X, radii=None, *, fit_range=None, min_count=8, max_fraction=0.0
     X = check_points(X, owner=owner, min_samples=3)
     min_count = check_int(min_count, "min_count", owner=owner, low=1)
     max_fraction = check_float(max_fraction, "max_fraction", owner=owner, low=0.0, high=1.0, low_open=True)
-    graph = kneighbors(X, min(10, X.shape[0] - 1), owner=owner, warn_duplicates=False)
+    graph = kneighbors(X, min(10, X.shape[0] - 1), owner=owner, warn_duplicates=False,
+                       random_state=index_seed(random_state))
     P = graph.points
     m = P.shape[0]
     Pc = P - P.mean(axis=0)

@@ -26,8 +26,10 @@ RADIUS_FACTOR = 0.25
 N_SPECTRUM = 10
 
 
-def resolve_dimension(X, dimension, *, owner: str, n_features: int) -> tuple[int, str]:
+def resolve_dimension(X, dimension, *, owner: str, n_features: int, seed=0) -> tuple[int, str]:
     """Return (d, source): the given ``dimension`` checked, or the consensus of ``estimate_dimension``.
+
+    ``seed`` seeds the estimate (its bootstrap, subsample and neighbour index) when d is not given.
 
     The dimension estimate is imported lazily: a caller that passes d does not load it (nor scikit-learn).
     """
@@ -46,7 +48,7 @@ def resolve_dimension(X, dimension, *, owner: str, n_features: int) -> tuple[int
             f"{owner}: no 'dimension' was given and the dimension estimate is not available ({exc}). "
             "Pass dimension=d explicitly."
         ) from None
-    report = estimate_dimension(X)
+    report = estimate_dimension(X, seed=seed)
     d = int(round(float(report.consensus)))
     d = max(1, min(d, n_features - 1))
     return d, "estimated"
