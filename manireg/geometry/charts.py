@@ -30,7 +30,9 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+from sklearn.base import BaseEstimator
 
+from .._params import check_attributes, integer, real, seed
 from .._results import ResultMixin
 from .._validation import check_float, check_int, check_points, make_rng, warn
 from .neighbors import index_seed, kneighbors
@@ -197,7 +199,7 @@ class ChartCounts(ResultMixin):
 
 
 # ------------------------------------------------------------------------------------------ atlas
-class ChartAtlas:
+class ChartAtlas(BaseEstimator):
     """Cover the data with charts of radius r and fit a tangent space to each.
 
     Parameters
@@ -255,6 +257,13 @@ class ChartAtlas:
     """
 
     _owner = "ChartAtlas"
+    _parameter_constraints = {
+        "min_points": integer(2),
+        "n_neighbors": integer(2, none=True),
+        "radius": real(0.0, low_open=True, none=True),
+        "dimension": integer(1, none=True),
+        "random_state": seed(none=True, generator=True),
+    }
 
     def __init__(self, *, radius=None, dimension=None, min_points=10, n_neighbors=None, random_state=0):
         self.radius = radius
@@ -266,20 +275,17 @@ class ChartAtlas:
     def fit(self, X, y=None):
         """Pick landmarks, build the balls and fit a tangent basis to each. Returns ``self``."""
         owner = self._owner
+        p = check_attributes(self, self._parameter_constraints)
         X = check_points(X, owner=owner, min_samples=3)
-        min_points = check_int(self.min_points, "min_points", owner=owner, low=2)
-        if self.n_neighbors is not None:
-            check_int(self.n_neighbors, "n_neighbors", owner=owner, low=2)
-        if self.radius is not None:
-            check_float(self.radius, "radius", owner=owner, low=0.0, low_open=True)
-        seed = index_seed(self.random_state)
-        d, source = resolve_dimension(X, self.dimension, owner=owner, n_features=X.shape[1], seed=seed)
+        min_points = p["min_points"]
+        seed = index_seed(p["random_state"])
+        d, source = resolve_dimension(X, p["dimension"], owner=owner, n_features=X.shape[1], seed=seed)
         if min_points <= d:
             raise ValueError(
                 f"the 'min_points' parameter of {owner} must exceed the dimension ({d}) so that a chart's PCA "
                 f"can find d directions; got {min_points}. Raise min_points to at least {d + 1}."
             )
-        n_neighbors = default_reach_neighbors(X.shape[0]) if self.n_neighbors is None else self.n_neighbors
+        n_neighbors = default_reach_neighbors(X.shape[0]) if p["n_neighbors"] is None else p["n_neighbors"]
         # one neighbour query serves the radius floor, sparse charts and the reach estimate (cached)
         k = min(max(min_points, n_neighbors), X.shape[0] - 1)
         graph = kneighbors(X, k, owner=owner, random_state=seed)
@@ -291,12 +297,12 @@ class ChartAtlas:
         extent = float(np.sqrt(np.max(np.einsum("ij,ij->i", Pc, Pc))))
 
         self.reach_ = None
-        if self.radius is not None:
-            radius = float(self.radius)
+        if p["radius"] is not None:
+            radius = p["radius"]
             rule = "given"
         else:
             floor = float(np.median(graph.distances[:, min_points - 1]))
-            self.reach_ = estimate_reach(X, d, n_neighbors=min(n_neighbors, k), random_state=self.random_state)
+            self.reach_ = estimate_reach(X, d, n_neighbors=min(n_neighbors, k), random_state=p["random_state"])
             radius = RADIUS_FACTOR * self.reach_.reach
             rule = f"{RADIUS_FACTOR} x estimated reach"
             if np.isnan(radius):
@@ -314,7 +320,7 @@ class ChartAtlas:
                 radius = floor
                 rule = f"median distance to the {min_points}-th neighbour (reach rule too small for this n)"
 
-        rng = make_rng(self.random_state)
+        rng = make_rng(p["random_state"])
         start = int(rng.integers(m))
         order, _, nearest, _ = _fps_core(Pc, start, radius)
         n_charts = order.shape[0]
@@ -393,12 +399,6 @@ class ChartAtlas:
             spectra=self.spectra_.copy(),
             flatness=self.flatness_.copy(),
             counts=self.counts_.copy(),
-        )
-
-    def __repr__(self):
-        return (
-            f"ChartAtlas(radius={self.radius!r}, dimension={self.dimension!r}, min_points={self.min_points!r}, "
-            f"n_neighbors={self.n_neighbors!r}, random_state={self.random_state!r})"
         )
 
 

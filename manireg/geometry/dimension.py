@@ -22,13 +22,13 @@ Conventions
 from __future__ import annotations
 
 import math
-import numbers
 from dataclasses import dataclass, field
 
 import numpy as np
 from sklearn.base import BaseEstimator
 from sklearn.utils.validation import check_is_fitted
 
+from .._params import boolean, check_attributes, choice, integer, real, seed
 from .._results import ResultMixin
 from .._validation import (
     DataValidationError,
@@ -386,42 +386,11 @@ def correlation_dimension(
 
 
 # --------------------------------------------------------------------------------------------------------
-# parameter constraints, declared once as data
+# estimators (parameter rules declared once as data, checked by manireg._params at fit)
 # --------------------------------------------------------------------------------------------------------
-def _check_params(est, constraints: dict) -> dict:
-    owner = type(est).__name__
-    out = {}
-    for name, spec in constraints.items():
-        value = getattr(est, name)
-        kind = spec[0]
-        if kind == "int":
-            out[name] = check_int(value, name, owner=owner, low=spec[1], high=spec[2])
-        elif kind == "int_or_none":
-            out[name] = None if value is None else check_int(value, name, owner=owner, low=spec[1], high=spec[2])
-        elif kind == "float":
-            out[name] = check_float(value, name, owner=owner, low=spec[1], high=spec[2],
-                                    low_open=spec[3], high_open=spec[4])
-        elif kind == "float_or_none":
-            out[name] = None if value is None else check_float(value, name, owner=owner, low=spec[1],
-                                                               high=spec[2], low_open=True)
-        elif kind == "choice":
-            out[name] = check_choice(value, name, owner=owner, choices=spec[1])
-        elif kind == "bool":
-            if not isinstance(value, (bool, np.bool_)):
-                raise ValueError(f"the '{name}' parameter of {owner} must be a bool; got {value!r}.")
-            out[name] = bool(value)
-        elif kind == "seed":
-            if not (isinstance(value, numbers.Integral) and not isinstance(value, bool) and value >= 0):
-                raise ValueError(f"the '{name}' parameter of {owner} must be a non-negative int; got {value!r}.")
-            out[name] = int(value)
-        else:  # pragma: no cover - a constraint table bug
-            raise RuntimeError(f"unknown constraint kind {kind!r} for {owner}.{name}")
-    return out
-
-
 _NEIGHBOR_PARAMS = {
-    "neighbor_method": ("choice", ("auto", "exact", "approximate")),
-    "random_state": ("seed",),
+    "neighbor_method": choice("auto", "exact", "approximate"),
+    "random_state": seed(),
 }
 
 
@@ -446,7 +415,7 @@ class _DimensionEstimator(BaseEstimator):
     _name = ""
 
     def _validate(self) -> dict:
-        return _check_params(self, self._parameter_constraints)
+        return check_attributes(self, self._parameter_constraints)
 
     def _graph(self, X, k: int, p: dict):
         owner = type(self).__name__
@@ -528,12 +497,12 @@ class MLEDimension(_DimensionEstimator):
 
     _name = "mle"
     _parameter_constraints = {
-        "k_min": ("int", 3, None),
-        "k_max": ("int", 3, None),
-        "aggregate": ("choice", ("harmonic", "mean", "median")),
-        "unbiased": ("bool",),
-        "n_boot": ("int", 0, None),
-        "level": ("float", 0.0, 1.0, True, True),
+        "k_min": integer(3),
+        "k_max": integer(3),
+        "aggregate": choice("harmonic", "mean", "median"),
+        "unbiased": boolean(),
+        "n_boot": integer(0),
+        "level": real(0.0, 1.0, low_open=True, high_open=True),
         **_NEIGHBOR_PARAMS,
     }
 
@@ -647,9 +616,9 @@ class TwoNNDimension(_DimensionEstimator):
 
     _name = "twonn"
     _parameter_constraints = {
-        "method": ("choice", ("mle", "linear")),
-        "discard_fraction": ("float", 0.0, 1.0, False, True),
-        "level": ("float", 0.0, 1.0, True, True),
+        "method": choice("mle", "linear"),
+        "discard_fraction": real(0.0, 1.0, high_open=True),
+        "level": real(0.0, 1.0, low_open=True, high_open=True),
         **_NEIGHBOR_PARAMS,
     }
 
@@ -709,12 +678,12 @@ class LocalPCADimension(_DimensionEstimator):
 
     _name = "lpca"
     _parameter_constraints = {
-        "n_neighbors": ("int", 2, None),
-        "rule": ("choice", ("variance", "gap")),
-        "variance": ("float", 0.0, 1.0, True, False),
-        "aggregate": ("choice", ("mean", "median")),
-        "n_boot": ("int", 0, None),
-        "level": ("float", 0.0, 1.0, True, True),
+        "n_neighbors": integer(2),
+        "rule": choice("variance", "gap"),
+        "variance": real(0.0, 1.0, low_open=True),
+        "aggregate": choice("mean", "median"),
+        "n_boot": integer(0),
+        "level": real(0.0, 1.0, low_open=True, high_open=True),
         **_NEIGHBOR_PARAMS,
     }
 
@@ -780,11 +749,11 @@ class CorrelationDimension(_DimensionEstimator):
 
     _name = "corr"
     _parameter_constraints = {
-        "r_min": ("float_or_none", 0.0, None),
-        "r_max": ("float_or_none", 0.0, None),
-        "n_radii": ("int", 2, None),
-        "max_points": ("int", 10, None),
-        "random_state": ("seed",),
+        "r_min": real(0.0, low_open=True, none=True),
+        "r_max": real(0.0, low_open=True, none=True),
+        "n_radii": integer(2),
+        "max_points": integer(10),
+        "random_state": seed(),
     }
 
     def __init__(self, *, r_min=None, r_max=None, quantiles=(0.001, 0.02), n_radii=20, max_points=3000,

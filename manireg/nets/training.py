@@ -31,14 +31,13 @@ from dataclasses import dataclass, field
 import numpy as np
 import torch
 
+from manireg._params import check_params, choice, integer, real
 from manireg._random import derive_seed
 from manireg._threads import torch_threads
 
 from manireg._results import ResultMixin
 from manireg._validation import (
     DataValidationError,
-    check_choice,
-    check_float,
     check_int,
     check_points,
     check_target,
@@ -150,27 +149,32 @@ class TrainConfig:
     n_threads: int | None = None
 
     def __post_init__(self):
-        o = "TrainConfig"
-        check_float(self.learning_rate, "learning_rate", owner=o, low=0.0, low_open=True)
-        check_choice(self.schedule, "schedule", owner=o, choices=("cosine", "step", "constant"))
-        check_float(self.final_lr_fraction, "final_lr_fraction", owner=o, low=0.0, high=1.0)
-        check_float(self.beta1, "beta1", owner=o, low=0.0, high=1.0, high_open=True)
-        check_float(self.beta2, "beta2", owner=o, low=0.0, high=1.0, high_open=True)
-        check_float(self.adam_eps, "adam_eps", owner=o, low=0.0, low_open=True)
-        check_int(self.batch_size, "batch_size", owner=o, low=1)
-        check_int(self.full_batch_threshold, "full_batch_threshold", owner=o, low=1)
-        check_int(self.max_steps, "max_steps", owner=o, low=1)
-        check_float(self.max_seconds, "max_seconds", owner=o, low=0.0, low_open=True)
-        check_int(self.min_steps, "min_steps", owner=o, low=0)
-        check_int(self.patience_steps, "patience_steps", owner=o, low=1)
-        check_int(self.eval_every, "eval_every", owner=o, low=1)
-        check_float(self.tol, "tol", owner=o, low=0.0, high=1.0, high_open=True)
-        check_float(self.validation_fraction, "validation_fraction", owner=o, low=0.0, high=1.0,
-                    low_open=True, high_open=True)
-        check_float(self.prune_at, "prune_at", owner=o, low=0.0, high=1.0, high_open=True)
-        check_choice(self.precision, "precision", owner=o, choices=PRECISIONS)
-        if self.n_threads is not None:
-            check_int(self.n_threads, "n_threads", owner=o, low=1)
+        check_params(vars(self), TRAIN_RULES, owner="TrainConfig")  # checks only: the values stay as given
+
+
+#: What each checked :class:`TrainConfig` field may hold (``NetworkRegressor`` checks its copies of the
+#: fields with the same rules). ``project_weights``, ``prune`` and ``standardize_target`` are used as truth
+#: values and have no rule.
+TRAIN_RULES = {
+    "learning_rate": real(0.0, low_open=True),
+    "schedule": choice("cosine", "step", "constant"),
+    "final_lr_fraction": real(0.0, 1.0),
+    "beta1": real(0.0, 1.0, high_open=True),
+    "beta2": real(0.0, 1.0, high_open=True),
+    "adam_eps": real(0.0, low_open=True),
+    "batch_size": integer(1),
+    "full_batch_threshold": integer(1),
+    "max_steps": integer(1),
+    "max_seconds": real(0.0, low_open=True),
+    "min_steps": integer(0),
+    "patience_steps": integer(1),
+    "eval_every": integer(1),
+    "tol": real(0.0, 1.0, high_open=True),
+    "validation_fraction": real(0.0, 1.0, low_open=True, high_open=True),
+    "prune_at": real(0.0, 1.0, high_open=True),
+    "precision": choice(*PRECISIONS),
+    "n_threads": integer(1, none=True),
+}
 
 
 def lr_at_step(config: TrainConfig, step: int) -> float:
