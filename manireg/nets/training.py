@@ -42,7 +42,7 @@ from manireg._validation import (
     check_points,
     check_target,
 )
-from manireg.nets.builders import ReLUNetwork, build_network, init_parameters
+from manireg.nets.builders import ReLUNetwork, build_network, clamp_weights, init_parameters, magnitude_masks
 from manireg.theory.sizing import ArchitectureSpec
 
 __all__ = ["TrainConfig", "ReplicaTask", "ReplicaResult", "BatchedTrainer", "lr_at_step", "auto_threads",
@@ -829,8 +829,7 @@ class BatchedTrainer:
                                lr=lr_at_step(cfg, step - 1), beta1=b1, beta2=b2, weight_decay=0.0, eps=eps,
                                amsgrad=False, maximize=False)
             if cfg.project_weights:
-                for W in params[:L]:
-                    W.clamp_(-wb, wb)
+                clamp_weights(params[:L], wb)
             if st.masks is not None:
                 for W, mk in zip(params[:L], st.masks):
                     W.mul_(mk)
@@ -856,14 +855,4 @@ class BatchedTrainer:
 
     def _prune_masks(self, Ws):
         """Per-replica global magnitude masks keeping exactly ``spec.nonzero_budget`` weight entries."""
-        Ra = Ws[0].shape[0]
-        flat = torch.cat([W.detach().abs().reshape(Ra, -1) for W in Ws], dim=1)
-        k = min(self.spec.nonzero_budget, flat.shape[1])
-        keep = torch.zeros_like(flat, dtype=torch.bool)
-        keep.scatter_(1, torch.topk(flat, k, dim=1, sorted=False).indices, True)
-        masks, start = [], 0
-        for W in Ws:
-            size = W[0].numel()
-            masks.append(keep[:, start:start + size].reshape(W.shape).to(W.dtype))
-            start += size
-        return masks
+        return magnitude_masks(Ws, self.spec.nonzero_budget)
