@@ -168,8 +168,8 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
         X = check_points(X, min_samples=1, owner="NetworkRegressor.predict")
         if X.shape[1] != self.n_features_in_:
             raise DataValidationError(
-                f"NetworkRegressor.predict: X has {X.shape[1]} features, but the model was fitted with "
-                f"{self.n_features_in_}."
+                f"NetworkRegressor.predict: X has {X.shape[1]} features, but NetworkRegressor is expecting "
+                f"{self.n_features_in_} features as input (the number it was fitted with). Pass the same columns."
             )
         with torch_threads(self.n_threads), torch.no_grad():
             return self.model_(torch.from_numpy(X.astype(np.float32))).numpy().astype(np.float64)

@@ -23,7 +23,7 @@ Conventions
   value of the distinct point they copy (through ``graph.inverse``).
 """
 
-from ._base import DimensionEstimate, _DimensionEstimator
+from ._base import DimensionEstimate, _DimensionEstimator, _LocalDimensionEstimator
 from .consensus import DimensionReport, estimate_dimension
 from .correlation import CorrelationDimension, correlation_dimension
 from .local_pca import LocalPCADimension, local_pca_dimension, local_pca_profile

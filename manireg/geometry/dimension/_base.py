@@ -74,8 +74,12 @@ class _DimensionEstimator(BaseEstimator):
         return DimensionEstimate(self._name, float(self.dimension_), lo, hi, kind, self.n_samples_,
                                  self.n_duplicates_, self.get_params())
 
+
+class _LocalDimensionEstimator(_DimensionEstimator):
+    """An estimator with a value per point (``local_dimension_``), which ``fit_transform`` returns."""
+
     def fit_transform(self, X, y=None):
-        """Fit and return the per-row local dimensions (local estimators only)."""
+        """Fit and return the per-row local dimensions."""
         return self.fit(X).local_dimension_
 
 

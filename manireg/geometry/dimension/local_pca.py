@@ -14,7 +14,7 @@ import numpy as np
 
 from ..._params import choice, integer, real
 from ..._validation import make_rng
-from ._base import _bootstrap, _bootstrap_mean_ratio, _DimensionEstimator, _NEIGHBOR_PARAMS, _percentile
+from ._base import _bootstrap, _bootstrap_mean_ratio, _LocalDimensionEstimator, _NEIGHBOR_PARAMS, _percentile
 
 __all__ = ["local_pca_profile", "local_pca_dimension", "LocalPCADimension"]
 
@@ -115,7 +115,7 @@ def local_pca_dimension(graph, n_neighbors: int = 20, *, rule: str = "variance",
     return _local_pca_rule(ev, rule, variance)
 
 
-class LocalPCADimension(_DimensionEstimator):
+class LocalPCADimension(_LocalDimensionEstimator):
     """Local PCA dimension: PCA of each point's neighbourhood.
 
     Parameters

@@ -22,7 +22,7 @@ import numpy as np
 
 from ..._params import boolean, choice, integer, real
 from ..._validation import make_rng
-from ._base import _bootstrap, _DimensionEstimator, _NEIGHBOR_PARAMS, _percentile
+from ._base import _bootstrap, _LocalDimensionEstimator, _NEIGHBOR_PARAMS, _percentile
 
 __all__ = ["mle_dimension", "MLEDimension"]
 
@@ -102,7 +102,7 @@ def mle_dimension(graph, k_min: int = 10, k_max: int = 20, *, aggregate: str = "
     return float(by_k.mean()), by_k, local
 
 
-class MLEDimension(_DimensionEstimator):
+class MLEDimension(_LocalDimensionEstimator):
     """Levina-Bickel maximum-likelihood intrinsic dimension with MacKay-Ghahramani aggregation.
 
     Parameters
