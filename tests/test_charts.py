@@ -155,3 +155,26 @@ def test_init_only_stores():
     assert a.radius == -5
     with pytest.raises(RuntimeError, match="not fitted"):
         a.summary()
+
+
+@pytest.mark.parametrize("call", ["atlas", "chart_counts", "reach", "curvature", "resolution"])
+def test_seed_reaches_the_neighbour_layer(call):
+    # the neighbour layer caches each graph under (data fingerprint, method, seed): after a call with
+    # seed 7 every graph it asked for must carry 7, not a hard-coded 0
+    from manireg.geometry import neighbors
+    from manireg.geometry.curvature import estimate_curvature
+    from manireg.geometry.reach import estimate_reach
+    from manireg.geometry.resolution import resolution_check
+
+    X = sphere(300, 2, seed=0).points
+    run = {
+        "atlas": lambda: ChartAtlas(radius=0.5, dimension=2, random_state=7).fit(X),
+        "chart_counts": lambda: chart_counts(X, random_state=7),
+        "reach": lambda: estimate_reach(X, 2, random_state=7),
+        "curvature": lambda: estimate_curvature(X, 2, n_landmarks=20, random_state=7),
+        "resolution": lambda: resolution_check(X, 2, random_state=7),
+    }[call]
+    neighbors.clear_cache()
+    run()
+    seeds = {key[2] for key in neighbors._CACHE}
+    assert seeds == {7}

@@ -32,6 +32,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from manireg._random import derive_seed as _seed_int
 from manireg._validation import check_float, check_int, check_points, check_target
 from manireg.curves.learners import LearnerSpec, make_learner
 
@@ -71,10 +72,6 @@ def canonical_json(obj) -> str:
 
 def _hash(obj) -> str:
     return hashlib.sha256(canonical_json(obj).encode()).hexdigest()
-
-
-def _seed_int(*entropy) -> int:
-    return int(np.random.SeedSequence([int(e) for e in entropy]).generate_state(1, dtype=np.uint64)[0] >> 1)
 
 
 def default_sizes(n_pool: int, min_size: int = DEFAULT_MIN_SIZE, n_sizes: int = DEFAULT_N_SIZES) -> list:

@@ -30,10 +30,14 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+from sklearn.base import BaseEstimator
 
+from .._params import check_attributes, integer, real, seed
 from .._results import ResultMixin
 from .._validation import check_float, check_int, check_points, make_rng, warn
-from .neighbors import kneighbors
+from .neighbors import index_seed, kneighbors
+from .reach import default_reach_neighbors, estimate_reach
+from .tangent import RADIUS_FACTOR, local_pca, representative_rows, resolve_dimension
 
 __all__ = [
     "RADIUS_FACTOR",
@@ -46,104 +50,7 @@ __all__ = [
     "resolve_dimension",
 ]
 
-#: The default chart radius is this fraction of the estimated reach: the theory needs r < reach / 2, and the
-#: extra factor 2 is a margin for the error of the reach estimate.
-RADIUS_FACTOR = 0.25
-
-#: Number of explained-variance components kept per chart in ``spectra_`` (at most D).
-N_SPECTRUM = 10
-
-
 # --------------------------------------------------------------------------------------------- helpers
-def resolve_dimension(X, dimension, *, owner: str, n_features: int) -> tuple[int, str]:
-    """Return (d, source): the given ``dimension`` checked, or the consensus of ``estimate_dimension``.
-
-    The dimension estimate is imported lazily so that the chart code works without it when d is given.
-    """
-    if dimension is not None:
-        d = check_int(dimension, "dimension", owner=owner, low=1)
-        if d >= n_features:
-            raise ValueError(
-                f"the 'dimension' parameter of {owner} must be smaller than the number of features of X "
-                f"({n_features}) for a tangent/normal split; got {d}. Pass the intrinsic dimension d < D."
-            )
-        return d, "given"
-    try:
-        from .dimension import estimate_dimension
-    except ImportError as exc:  # pragma: no cover - depends on the dimension module being present
-        raise ValueError(
-            f"{owner}: no 'dimension' was given and the dimension estimate is not available ({exc}). "
-            "Pass dimension=d explicitly."
-        ) from None
-    report = estimate_dimension(X)
-    d = int(round(float(report.consensus)))
-    d = max(1, min(d, n_features - 1))
-    return d, "estimated"
-
-
-def local_pca(points: np.ndarray, neighborhoods, dimension: int, *, n_spectrum: int | None = None, chunk: int = 256):
-    """Tangent bases and explained-variance spectra by PCA of each neighbourhood.
-
-    Each neighbourhood is centred at its mean; the tangent basis is spanned by the ``dimension`` leading
-    principal directions.
-
-    Parameters
-    ----------
-    points : (m, D) array
-    neighborhoods : (b, k) int array (equal sizes, done in batched chunks) or a list of int arrays
-    dimension : int
-        d, the number of tangent directions kept.
-    n_spectrum : int, optional
-        Number of explained-variance ratios kept per neighbourhood (default ``min(D, 10)``); missing
-        entries (neighbourhoods with fewer points than components) are 0.
-
-    Returns
-    -------
-    bases : (b, D, d) array with orthonormal columns
-    spectra : (b, n_spectrum) array of explained-variance ratios (each row sums to at most 1)
-
-    References
-    ----------
-    .. [1] Jolliffe, I. T. *Principal Component Analysis*, 2nd ed., Springer (2002).
-    """
-    D = points.shape[1]
-    ns = min(D, N_SPECTRUM) if n_spectrum is None else min(D, n_spectrum)
-    if isinstance(neighborhoods, np.ndarray) and neighborhoods.ndim == 2:
-        b = neighborhoods.shape[0]
-        bases = np.empty((b, D, dimension))
-        spectra = np.zeros((b, ns))
-        for s in range(0, b, chunk):
-            nb = points[neighborhoods[s : s + chunk]]  # (c, k, D)
-            nb = nb - nb.mean(axis=1, keepdims=True)
-            _, sv, vt = np.linalg.svd(nb, full_matrices=False)
-            bases[s : s + chunk] = np.transpose(vt[:, :dimension, :], (0, 2, 1))
-            ev = sv**2
-            tot = ev.sum(axis=1, keepdims=True)
-            tot[tot == 0] = 1.0
-            r = ev / tot
-            q = min(ns, r.shape[1])
-            spectra[s : s + chunk, :q] = r[:, :q]
-        return bases, spectra
-    b = len(neighborhoods)
-    bases = np.empty((b, D, dimension))
-    spectra = np.zeros((b, ns))
-    for i, idx in enumerate(neighborhoods):
-        nb = points[np.asarray(idx)]
-        nb = nb - nb.mean(axis=0)
-        _, sv, vt = np.linalg.svd(nb, full_matrices=False)
-        if vt.shape[0] < dimension:  # fewer points than d: complete the basis arbitrarily but orthonormally
-            q, _ = np.linalg.qr(np.vstack([vt, np.eye(D)[: dimension]]).T)
-            bases[i] = q[:, :dimension]
-        else:
-            bases[i] = vt[:dimension].T
-        ev = sv**2
-        tot = ev.sum()
-        r = ev / tot if tot > 0 else ev
-        q = min(ns, r.shape[0])
-        spectra[i, :q] = r[:q]
-    return bases, spectra
-
-
 def _fps_core(points: np.ndarray, start: int, radius: float, max_landmarks: int | None = None):
     """Farthest-point sampling until the covering radius is <= ``radius``.
 
@@ -206,14 +113,6 @@ def farthest_point_sampling(X, radius: float, *, random_state=0):
     start = int(rng.integers(X.shape[0]))
     order, _, nearest, _ = _fps_core(X - X.mean(axis=0), start, radius)
     return order, nearest
-
-
-def _representatives(inverse: np.ndarray, m: int) -> np.ndarray:
-    """First original row of every distinct point."""
-    rep = np.empty(m, dtype=np.int64)
-    rows = np.arange(inverse.shape[0])
-    rep[inverse[::-1]] = rows[::-1]
-    return rep
 
 
 # ------------------------------------------------------------------------------------------ results
@@ -300,7 +199,7 @@ class ChartCounts(ResultMixin):
 
 
 # ------------------------------------------------------------------------------------------ atlas
-class ChartAtlas:
+class ChartAtlas(BaseEstimator):
     """Cover the data with charts of radius r and fit a tangent space to each.
 
     Parameters
@@ -322,7 +221,8 @@ class ChartAtlas:
         Neighbourhood size for the reach estimate behind the default radius (``None``: that estimate's
         rule, sqrt(n) clipped to [20, 100]).
     random_state : int
-        Seed of the first landmark (and of the reach estimate's base-point subsample).
+        Seed of the first landmark, of the reach estimate's base-point subsample, of the dimension estimate
+        (when ``dimension`` is None) and of the approximate neighbour index (large samples).
 
     Attributes
     ----------
@@ -357,6 +257,13 @@ class ChartAtlas:
     """
 
     _owner = "ChartAtlas"
+    _parameter_constraints = {
+        "min_points": integer(2),
+        "n_neighbors": integer(2, none=True),
+        "radius": real(0.0, low_open=True, none=True),
+        "dimension": integer(1, none=True),
+        "random_state": seed(none=True, generator=True),
+    }
 
     def __init__(self, *, radius=None, dimension=None, min_points=10, n_neighbors=None, random_state=0):
         self.radius = radius
@@ -368,40 +275,34 @@ class ChartAtlas:
     def fit(self, X, y=None):
         """Pick landmarks, build the balls and fit a tangent basis to each. Returns ``self``."""
         owner = self._owner
+        p = check_attributes(self, self._parameter_constraints)
         X = check_points(X, owner=owner, min_samples=3)
-        min_points = check_int(self.min_points, "min_points", owner=owner, low=2)
-        if self.n_neighbors is not None:
-            check_int(self.n_neighbors, "n_neighbors", owner=owner, low=2)
-        if self.radius is not None:
-            check_float(self.radius, "radius", owner=owner, low=0.0, low_open=True)
-        d, source = resolve_dimension(X, self.dimension, owner=owner, n_features=X.shape[1])
+        min_points = p["min_points"]
+        seed = index_seed(p["random_state"])
+        d, source = resolve_dimension(X, p["dimension"], owner=owner, n_features=X.shape[1], seed=seed)
         if min_points <= d:
             raise ValueError(
                 f"the 'min_points' parameter of {owner} must exceed the dimension ({d}) so that a chart's PCA "
                 f"can find d directions; got {min_points}. Raise min_points to at least {d + 1}."
             )
-        from .reach import default_reach_neighbors
-
-        n_neighbors = default_reach_neighbors(X.shape[0]) if self.n_neighbors is None else self.n_neighbors
+        n_neighbors = default_reach_neighbors(X.shape[0]) if p["n_neighbors"] is None else p["n_neighbors"]
         # one neighbour query serves the radius floor, sparse charts and the reach estimate (cached)
         k = min(max(min_points, n_neighbors), X.shape[0] - 1)
-        graph = kneighbors(X, k, owner=owner, random_state=0)
+        graph = kneighbors(X, k, owner=owner, random_state=seed)
         P = graph.points
         m = P.shape[0]
-        rep = _representatives(graph.inverse, m)
+        rep = representative_rows(graph.inverse, m)
         center = P.mean(axis=0)
         Pc = P - center
         extent = float(np.sqrt(np.max(np.einsum("ij,ij->i", Pc, Pc))))
 
         self.reach_ = None
-        if self.radius is not None:
-            radius = float(self.radius)
+        if p["radius"] is not None:
+            radius = p["radius"]
             rule = "given"
         else:
-            from .reach import estimate_reach
-
             floor = float(np.median(graph.distances[:, min_points - 1]))
-            self.reach_ = estimate_reach(X, d, n_neighbors=min(n_neighbors, k), random_state=self.random_state)
+            self.reach_ = estimate_reach(X, d, n_neighbors=min(n_neighbors, k), random_state=p["random_state"])
             radius = RADIUS_FACTOR * self.reach_.reach
             rule = f"{RADIUS_FACTOR} x estimated reach"
             if np.isnan(radius):
@@ -419,7 +320,7 @@ class ChartAtlas:
                 radius = floor
                 rule = f"median distance to the {min_points}-th neighbour (reach rule too small for this n)"
 
-        rng = make_rng(self.random_state)
+        rng = make_rng(p["random_state"])
         start = int(rng.integers(m))
         order, _, nearest, _ = _fps_core(Pc, start, radius)
         n_charts = order.shape[0]
@@ -500,12 +401,6 @@ class ChartAtlas:
             counts=self.counts_.copy(),
         )
 
-    def __repr__(self):
-        return (
-            f"ChartAtlas(radius={self.radius!r}, dimension={self.dimension!r}, min_points={self.min_points!r}, "
-            f"n_neighbors={self.n_neighbors!r}, random_state={self.random_state!r})"
-        )
-
 
 # ------------------------------------------------------------------------------------- chart counts
 def chart_counts(X, radii=None, *, fit_range=None, min_count=8, max_fraction=0.05, random_state=0) -> ChartCounts:
@@ -530,7 +425,7 @@ def chart_counts(X, radii=None, *, fit_range=None, min_count=8, max_fraction=0.0
     max_fraction : float in (0, 1]
         Upper count of the default fit range, as a fraction of the number of distinct points.
     random_state : int
-        Seed of the first landmark.
+        Seed of the first landmark and of the approximate neighbour index (large samples).
 
     Returns
     -------
@@ -546,7 +441,8 @@ def chart_counts(X, radii=None, *, fit_range=None, min_count=8, max_fraction=0.0
     X = check_points(X, owner=owner, min_samples=3)
     min_count = check_int(min_count, "min_count", owner=owner, low=1)
     max_fraction = check_float(max_fraction, "max_fraction", owner=owner, low=0.0, high=1.0, low_open=True)
-    graph = kneighbors(X, min(10, X.shape[0] - 1), owner=owner, warn_duplicates=False)
+    graph = kneighbors(X, min(10, X.shape[0] - 1), owner=owner, warn_duplicates=False,
+                       random_state=index_seed(random_state))
     P = graph.points
     m = P.shape[0]
     Pc = P - P.mean(axis=0)

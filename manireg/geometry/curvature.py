@@ -35,8 +35,8 @@ import numpy as np
 
 from .._results import ResultMixin
 from .._validation import DataValidationError, check_int, check_points, make_rng
-from .charts import _representatives, local_pca, resolve_dimension
-from .neighbors import kneighbors
+from .tangent import local_pca, representative_rows, resolve_dimension
+from .neighbors import index_seed, kneighbors
 
 __all__ = ["CurvatureReport", "estimate_curvature", "second_fundamental_form", "max_principal_curvature"]
 
@@ -178,7 +178,8 @@ def estimate_curvature(
         coordinate, so the fit is well over-determined. Too small a neighbourhood lets noise dominate; too
         large a one lets third-order terms in.
     random_state : int
-        Seed of the landmark draw and of the ascent starts.
+        Seed of the landmark draw, of the ascent starts, of the dimension estimate (when ``dimension`` is
+        None) and of the approximate neighbour index (large samples).
 
     Returns
     -------
@@ -198,7 +199,8 @@ def estimate_curvature(
     """
     owner = "estimate_curvature"
     X = check_points(X, owner=owner, min_samples=3)
-    d, _ = resolve_dimension(X, dimension, owner=owner, n_features=X.shape[1])
+    seed = index_seed(random_state)
+    d, _ = resolve_dimension(X, dimension, owner=owner, n_features=X.shape[1], seed=seed)
     p = 1 + d + d * (d + 1) // 2
     k = max(30, 4 * p) if n_neighbors is None else check_int(n_neighbors, "n_neighbors", owner=owner, low=2)
     if k < p + 1:
@@ -206,10 +208,10 @@ def estimate_curvature(
             f"the 'n_neighbors' parameter of {owner} must be at least {p + 1} for a quadratic fit in d = {d} "
             f"coordinates ({p} coefficients); got {k}. Use n_neighbors >= {4 * p}."
         )
-    graph = kneighbors(X, k, owner=owner, random_state=0)
+    graph = kneighbors(X, k, owner=owner, random_state=seed)
     P = graph.points
     m = P.shape[0]
-    rep = _representatives(graph.inverse, m)
+    rep = representative_rows(graph.inverse, m)
     rng = make_rng(random_state)
     if landmarks is None:
         n_landmarks = check_int(n_landmarks, "n_landmarks", owner=owner, low=1)

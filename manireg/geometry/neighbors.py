@@ -23,7 +23,8 @@ import numpy as np
 from .._results import ResultMixin
 from .._validation import DataValidationError, check_choice, check_int, check_points, warn
 
-__all__ = ["APPROXIMATE_ABOVE", "NeighborGraph", "collapse_duplicates", "kneighbors", "data_fingerprint", "clear_cache"]
+__all__ = ["APPROXIMATE_ABOVE", "NeighborGraph", "collapse_duplicates", "kneighbors", "data_fingerprint", "clear_cache",
+           "index_seed"]
 
 #: Above this many (distinct) points ``method="auto"`` switches from exact search to pynndescent.
 #: Exact brute-force search costs O(n^2 D); at 60,000 points in D = 64 it is a few seconds on 2 cores,
@@ -94,6 +95,17 @@ def collapse_duplicates(X: np.ndarray):
 def clear_cache() -> None:
     """Forget cached neighbour graphs."""
     _CACHE.clear()
+
+
+def index_seed(random_state) -> int | None:
+    """The seed a caller's ``random_state`` gives the approximate index of :func:`kneighbors`.
+
+    An int (or ``None``, fresh entropy) is passed on as it is. A numpy Generator gives 0: drawing a seed
+    from it would shift the caller's own stream, which its other random steps use.
+    """
+    if isinstance(random_state, np.random.Generator):
+        return 0
+    return random_state
 
 
 def kneighbors(

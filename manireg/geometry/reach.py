@@ -42,8 +42,8 @@ import numpy as np
 
 from .._results import ResultMixin
 from .._validation import DataValidationError, check_float, check_int, check_points, make_rng, warn
-from .charts import RADIUS_FACTOR, _representatives, local_pca, resolve_dimension
-from .neighbors import kneighbors
+from .tangent import RADIUS_FACTOR, local_pca, representative_rows, resolve_dimension
+from .neighbors import index_seed, kneighbors
 
 __all__ = ["ReachEstimate", "estimate_reach", "reach_from_tangents", "default_reach_neighbors"]
 
@@ -190,7 +190,8 @@ def estimate_reach(
         Default 2. Pairs closer than ``exclusion`` times the base point's ``n_neighbors``-th neighbour distance are
         skipped (see the module notes); 0 keeps every pair.
     random_state : int
-        Seed of the base-point subsample.
+        Seed of the base-point subsample, of the dimension estimate (when ``dimension`` is None) and of the
+        approximate neighbour index (large samples).
 
     Returns
     -------
@@ -220,17 +221,18 @@ def estimate_reach(
         quantile = check_float(quantile, "quantile", owner=owner, low=0.0, high=1.0, low_open=True, high_open=True)
     if n_base is not None:
         n_base = check_int(n_base, "n_base", owner=owner, low=1)
-    d, _ = resolve_dimension(X, dimension, owner=owner, n_features=X.shape[1])
+    seed = index_seed(random_state)
+    d, _ = resolve_dimension(X, dimension, owner=owner, n_features=X.shape[1], seed=seed)
     if n_neighbors <= d:
         raise ValueError(
             f"the 'n_neighbors' parameter of {owner} must exceed the dimension ({d}) for a local PCA of d "
             f"directions; got {n_neighbors}. Use n_neighbors >= {max(d + 1, 2 * d)}."
         )
-    graph = kneighbors(X, min(n_neighbors, X.shape[0] - 1), owner=owner, random_state=0)
+    graph = kneighbors(X, min(n_neighbors, X.shape[0] - 1), owner=owner, random_state=seed)
     n_neighbors = graph.k
     P = graph.points
     m = P.shape[0]
-    rep = _representatives(graph.inverse, m)
+    rep = representative_rows(graph.inverse, m)
     rng = make_rng(random_state)
     if n_base is None or n_base >= m:
         base = np.arange(m)

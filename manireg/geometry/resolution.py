@@ -26,8 +26,8 @@ import numpy as np
 
 from .._results import ResultMixin
 from .._validation import check_float, check_points
-from .charts import RADIUS_FACTOR, resolve_dimension
-from .neighbors import kneighbors
+from .tangent import RADIUS_FACTOR, resolve_dimension
+from .neighbors import index_seed, kneighbors
 
 __all__ = ["ResolutionCheck", "resolution_check", "MAX_SPACING_RATIO"]
 
@@ -67,7 +67,8 @@ class ResolutionCheck(ResultMixin):
     verdict: str
 
 
-def resolution_check(X, dimension=None, reach=None, chart_radius=None, *, max_ratio: float = MAX_SPACING_RATIO) -> ResolutionCheck:
+def resolution_check(X, dimension=None, reach=None, chart_radius=None, *, max_ratio: float = MAX_SPACING_RATIO,
+                     random_state=0) -> ResolutionCheck:
     """Compare the typical nearest-neighbour spacing with the chart radius and the reach.
 
     Parameters
@@ -83,6 +84,9 @@ def resolution_check(X, dimension=None, reach=None, chart_radius=None, *, max_ra
     max_ratio : float in (0, 1]
         Working rule: dense enough when median spacing <= ``max_ratio`` * chart radius (default 0.25,
         common practice).
+    random_state : int
+        Seed of the dimension estimate (when ``dimension`` is None), of the reach estimate (when neither
+        ``reach`` nor ``chart_radius`` is given) and of the approximate neighbour index (large samples).
 
     Returns
     -------
@@ -102,7 +106,8 @@ def resolution_check(X, dimension=None, reach=None, chart_radius=None, *, max_ra
     """
     owner = "resolution_check"
     X = check_points(X, owner=owner, min_samples=3)
-    d, _ = resolve_dimension(X, dimension, owner=owner, n_features=X.shape[1])
+    seed = index_seed(random_state)
+    d, _ = resolve_dimension(X, dimension, owner=owner, n_features=X.shape[1], seed=seed)
     max_ratio = check_float(max_ratio, "max_ratio", owner=owner, low=0.0, high=1.0, low_open=True)
     if reach is not None:
         reach = check_float(reach, "reach", owner=owner, low=0.0, low_open=True) if np.isfinite(reach) else float(reach)
@@ -110,14 +115,14 @@ def resolution_check(X, dimension=None, reach=None, chart_radius=None, *, max_ra
             raise ValueError(f"the 'reach' parameter of {owner} must be > 0 (or inf for flat data); got {reach!r}.")
     if chart_radius is not None:
         chart_radius = check_float(chart_radius, "chart_radius", owner=owner, low=0.0, low_open=True)
-    graph = kneighbors(X, 1, owner=owner)
+    graph = kneighbors(X, 1, owner=owner, random_state=seed)
     spacing = float(np.median(graph.distances[:, 0]))
     m = graph.n_points
     if chart_radius is None:
         if reach is None:
             from .reach import estimate_reach
 
-            reach = estimate_reach(X, d).reach
+            reach = estimate_reach(X, d, random_state=random_state).reach
         chart_radius = RADIUS_FACTOR * reach
         if not np.isfinite(chart_radius):
             Pc = graph.points - graph.points.mean(axis=0)

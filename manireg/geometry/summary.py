@@ -193,9 +193,9 @@ def _describe(X, y, *, dimension, radius, embed, max_embed_points, n_boot, seed,
     step("resolution")
     reach = atlas.reach_
     if reach is not None and np.isfinite(reach.reach) and reach.reach > 0:
-        res = resolution_check(X, d, reach=reach.reach, chart_radius=atlas.radius_)
+        res = resolution_check(X, d, reach=reach.reach, chart_radius=atlas.radius_, random_state=seed)
     else:
-        res = resolution_check(X, d, chart_radius=atlas.radius_)
+        res = resolution_check(X, d, chart_radius=atlas.radius_, random_state=seed)
 
     emb = None
     if embed:

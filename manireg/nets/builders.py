@@ -37,6 +37,8 @@ __all__ = [
     "init_parameters",
     "project_weights",
     "prune_to_budget",
+    "magnitude_masks",
+    "clamp_weights",
     "apply_masks",
     "count_parameters",
     "count_nonzero_weights",
@@ -376,6 +378,39 @@ def _weight_params(model: nn.Module):
 
 
 @torch.no_grad()
+def clamp_weights(weights, bound: float) -> None:
+    """Clamp every entry of each tensor in ``weights`` into ``[-bound, bound]``, in place (no checks).
+
+    The one projection both :func:`project_weights` (a module's weights) and the batched trainer (stacked
+    replica weights, after every step) apply.
+    """
+    for W in weights:
+        W.clamp_(-bound, bound)
+
+
+@torch.no_grad()
+def magnitude_masks(weights, k: int) -> list:
+    """Keep-masks of global magnitude pruning, one replica per row of stacked weights (no checks).
+
+    ``weights`` is a list of tensors whose first axis runs over replicas, (R, ...). For each replica the
+    ``min(k, entries)`` largest absolute entries over all its tensors are kept (ties broken by ``topk``, so
+    exactly that many). Returns one mask per tensor, with its shape and dtype: 1 where kept, 0 where pruned.
+    This is the one ranking both :func:`prune_to_budget` (R = 1) and the batched trainer use.
+    """
+    R = weights[0].shape[0]
+    flat = torch.cat([W.detach().abs().reshape(R, -1) for W in weights], dim=1)
+    k = min(k, flat.shape[1])
+    keep = torch.zeros_like(flat, dtype=torch.bool)
+    keep.scatter_(1, torch.topk(flat, k, dim=1, sorted=False).indices, True)
+    masks, start = [], 0
+    for W in weights:
+        size = W[0].numel()
+        masks.append(keep[:, start:start + size].reshape(W.shape).to(W.dtype))
+        start += size
+    return masks
+
+
+@torch.no_grad()
 def project_weights(model: nn.Module, bound: float) -> float:
     """Project every weight-matrix (and conv kernel) entry into ``[-bound, bound]``, in place.
 
@@ -400,11 +435,9 @@ def project_weights(model: nn.Module, bound: float) -> float:
     """
     if not (isinstance(bound, numbers.Real) and bound > 0 and math.isfinite(bound)):
         raise ValueError(f"the 'bound' parameter of project_weights must be a finite real > 0; got {bound!r}.")
-    largest = 0.0
-    for _, p in _weight_params(model):
-        p.clamp_(-bound, bound)
-        largest = max(largest, float(p.abs().max()))
-    return largest
+    weights = [p for _, p in _weight_params(model)]
+    clamp_weights(weights, bound)
+    return max(float(p.abs().max()) for p in weights)
 
 
 @torch.no_grad()
@@ -438,18 +471,11 @@ def prune_to_budget(model: nn.Module, k: int) -> dict:
     if isinstance(k, bool) or not isinstance(k, numbers.Integral) or k < 1:
         raise ValueError(f"the 'k' parameter of prune_to_budget must be an int >= 1; got {k!r}.")
     params = _weight_params(model)
-    flat = torch.cat([p.detach().abs().reshape(-1) for _, p in params])
+    if k >= sum(p.numel() for _, p in params):
+        return {name: p != 0 for name, p in params}
     masks = {}
-    if k >= flat.numel():
-        for name, p in params:
-            masks[name] = p != 0
-        return masks
-    keep = torch.zeros(flat.numel(), dtype=torch.bool)
-    keep[torch.topk(flat, k, largest=True, sorted=False).indices] = True  # exactly k kept, ties broken
-    start = 0
-    for name, p in params:
-        m = keep[start:start + p.numel()].reshape(p.shape)
-        start += p.numel()
+    for (name, p), m in zip(params, magnitude_masks([p[None] for _, p in params], k)):
+        m = m[0] != 0
         p.mul_(m)
         masks[name] = m
     nnz = count_nonzero_weights(model)

@@ -7,6 +7,7 @@ in scikit-learn.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import numpy as np
@@ -14,12 +15,20 @@ import torch
 from sklearn.base import BaseEstimator, RegressorMixin
 from sklearn.utils.validation import check_is_fitted
 
+from manireg._params import check_attributes, instance, seed
 from manireg._threads import torch_threads
 from manireg._validation import DataValidationError, check_float, check_points, check_target, make_rng
-from manireg.nets.training import BatchedTrainer, ReplicaTask, TrainConfig
+from manireg.nets.training import TRAIN_RULES, BatchedTrainer, ReplicaTask, TrainConfig
 from manireg.theory.sizing import SizingConstants, size_network
 
 __all__ = ["NetworkRegressor"]
+
+#: The :class:`TrainConfig` fields a :class:`NetworkRegressor` takes as its own parameters: same names, same
+#: defaults (read from TrainConfig below) and same rules (``TRAIN_RULES``).
+TRAIN_PARAMS = ("learning_rate", "schedule", "batch_size", "full_batch_threshold", "max_steps", "max_seconds",
+                "min_steps", "patience_steps", "validation_fraction", "project_weights", "prune", "precision",
+                "n_threads")
+_T = {f.name: f.default for f in dataclasses.fields(TrainConfig)}
 
 
 class NetworkRegressor(RegressorMixin, BaseEstimator):
@@ -66,6 +75,14 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
     (3,)
     """
 
+    # d, s and width_multiplier are checked by size_network, output_bound in fit ("auto", None or a real > 0)
+    _parameter_constraints = {
+        "sizing_constants": instance(SizingConstants, none=True),
+        **{name: TRAIN_RULES[name] for name in TRAIN_PARAMS if name in TRAIN_RULES},
+        "random_state": seed(none=True, generator=True),
+    }
+
+    # scikit-learn's get_params reads the parameters from this signature, so it lists them one by one
     def __init__(
         self,
         *,
@@ -74,19 +91,19 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
         sizing_constants=None,
         width_multiplier=1.0,
         output_bound="auto",
-        learning_rate=3e-3,
-        schedule="cosine",
-        batch_size=128,
-        full_batch_threshold=256,
-        max_steps=500,
-        max_seconds=600.0,
-        min_steps=200,
-        patience_steps=150,
-        validation_fraction=0.2,
-        project_weights=False,
-        prune=False,
-        precision="auto",
-        n_threads=None,
+        learning_rate=_T["learning_rate"],
+        schedule=_T["schedule"],
+        batch_size=_T["batch_size"],
+        full_batch_threshold=_T["full_batch_threshold"],
+        max_steps=_T["max_steps"],
+        max_seconds=_T["max_seconds"],
+        min_steps=_T["min_steps"],
+        patience_steps=_T["patience_steps"],
+        validation_fraction=_T["validation_fraction"],
+        project_weights=_T["project_weights"],
+        prune=_T["prune"],
+        precision=_T["precision"],
+        n_threads=_T["n_threads"],
         random_state=None,
     ):
         self.d = d
@@ -110,25 +127,13 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
         self.random_state = random_state
 
     def _config(self) -> TrainConfig:
-        return TrainConfig(
-            learning_rate=self.learning_rate,
-            schedule=self.schedule,
-            batch_size=self.batch_size,
-            full_batch_threshold=self.full_batch_threshold,
-            max_steps=self.max_steps,
-            max_seconds=self.max_seconds,
-            min_steps=self.min_steps,
-            patience_steps=self.patience_steps,
-            validation_fraction=self.validation_fraction,
-            project_weights=self.project_weights,
-            prune=self.prune,
-            precision=self.precision,
-            n_threads=self.n_threads,
-        )
+        """The trainer's settings: this regressor's copies of the :data:`TRAIN_PARAMS` fields, as given."""
+        return TrainConfig(**{name: getattr(self, name) for name in TRAIN_PARAMS})
 
     def fit(self, X, y):
         """Size the network for ``len(X)``, train it with validation early stopping, return ``self``."""
         owner = "NetworkRegressor"
+        check_attributes(self, self._parameter_constraints, owner=owner)
         X = check_points(X, min_samples=3, owner=owner)
         y = check_target(y, len(X), owner=owner)
         config = self._config()
@@ -140,11 +145,6 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
             bound = math.inf
         else:
             bound = check_float(self.output_bound, "output_bound", owner=owner, low=0.0, low_open=True)
-        if self.sizing_constants is not None and not isinstance(self.sizing_constants, SizingConstants):
-            raise ValueError(
-                f"the 'sizing_constants' parameter of {owner} must be a SizingConstants or None; "
-                f"got {type(self.sizing_constants).__name__}."
-            )
         rng = make_rng(self.random_state)
         n_val = max(1, int(round(config.validation_fraction * len(X))))
         if len(X) - n_val < 2:
@@ -168,8 +168,8 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
         X = check_points(X, min_samples=1, owner="NetworkRegressor.predict")
         if X.shape[1] != self.n_features_in_:
             raise DataValidationError(
-                f"NetworkRegressor.predict: X has {X.shape[1]} features, but the model was fitted with "
-                f"{self.n_features_in_}."
+                f"NetworkRegressor.predict: X has {X.shape[1]} features, but NetworkRegressor is expecting "
+                f"{self.n_features_in_} features as input (the number it was fitted with). Pass the same columns."
             )
         with torch_threads(self.n_threads), torch.no_grad():
             return self.model_(torch.from_numpy(X.astype(np.float32))).numpy().astype(np.float64)

@@ -31,18 +31,19 @@ from dataclasses import dataclass, field
 import numpy as np
 import torch
 
+from manireg._params import check_params, choice, integer, real
+from manireg._random import derive_seed
 from manireg._threads import torch_threads
 
 from manireg._results import ResultMixin
 from manireg._validation import (
     DataValidationError,
     check_choice,
-    check_float,
     check_int,
     check_points,
     check_target,
 )
-from manireg.nets.builders import ReLUNetwork, build_network, init_parameters
+from manireg.nets.builders import ReLUNetwork, build_network, clamp_weights, init_parameters, magnitude_masks
 from manireg.nets.losses import LOSSES, output_gradient, probabilities, row_loss, stopping_loss
 from manireg.theory.sizing import ArchitectureSpec
 
@@ -150,27 +151,32 @@ class TrainConfig:
     n_threads: int | None = None
 
     def __post_init__(self):
-        o = "TrainConfig"
-        check_float(self.learning_rate, "learning_rate", owner=o, low=0.0, low_open=True)
-        check_choice(self.schedule, "schedule", owner=o, choices=("cosine", "step", "constant"))
-        check_float(self.final_lr_fraction, "final_lr_fraction", owner=o, low=0.0, high=1.0)
-        check_float(self.beta1, "beta1", owner=o, low=0.0, high=1.0, high_open=True)
-        check_float(self.beta2, "beta2", owner=o, low=0.0, high=1.0, high_open=True)
-        check_float(self.adam_eps, "adam_eps", owner=o, low=0.0, low_open=True)
-        check_int(self.batch_size, "batch_size", owner=o, low=1)
-        check_int(self.full_batch_threshold, "full_batch_threshold", owner=o, low=1)
-        check_int(self.max_steps, "max_steps", owner=o, low=1)
-        check_float(self.max_seconds, "max_seconds", owner=o, low=0.0, low_open=True)
-        check_int(self.min_steps, "min_steps", owner=o, low=0)
-        check_int(self.patience_steps, "patience_steps", owner=o, low=1)
-        check_int(self.eval_every, "eval_every", owner=o, low=1)
-        check_float(self.tol, "tol", owner=o, low=0.0, high=1.0, high_open=True)
-        check_float(self.validation_fraction, "validation_fraction", owner=o, low=0.0, high=1.0,
-                    low_open=True, high_open=True)
-        check_float(self.prune_at, "prune_at", owner=o, low=0.0, high=1.0, high_open=True)
-        check_choice(self.precision, "precision", owner=o, choices=PRECISIONS)
-        if self.n_threads is not None:
-            check_int(self.n_threads, "n_threads", owner=o, low=1)
+        check_params(vars(self), TRAIN_RULES, owner="TrainConfig")  # checks only: the values stay as given
+
+
+#: What each checked :class:`TrainConfig` field may hold (``NetworkRegressor`` checks its copies of the
+#: fields with the same rules). ``project_weights``, ``prune`` and ``standardize_target`` are used as truth
+#: values and have no rule.
+TRAIN_RULES = {
+    "learning_rate": real(0.0, low_open=True),
+    "schedule": choice("cosine", "step", "constant"),
+    "final_lr_fraction": real(0.0, 1.0),
+    "beta1": real(0.0, 1.0, high_open=True),
+    "beta2": real(0.0, 1.0, high_open=True),
+    "adam_eps": real(0.0, low_open=True),
+    "batch_size": integer(1),
+    "full_batch_threshold": integer(1),
+    "max_steps": integer(1),
+    "max_seconds": real(0.0, low_open=True),
+    "min_steps": integer(0),
+    "patience_steps": integer(1),
+    "eval_every": integer(1),
+    "tol": real(0.0, 1.0, high_open=True),
+    "validation_fraction": real(0.0, 1.0, low_open=True, high_open=True),
+    "prune_at": real(0.0, 1.0, high_open=True),
+    "precision": choice(*PRECISIONS),
+    "n_threads": integer(1, none=True),
+}
 
 
 def lr_at_step(config: TrainConfig, step: int) -> float:
@@ -344,14 +350,10 @@ def _stacked_init(spec, seeds, n_outputs=1):
 def _output_init(width, n_outputs, seed):
     """Glorot-uniform (width, n_outputs) output weights and zero biases, from the replica's stream 3."""
     g = torch.Generator()
-    g.manual_seed(_derived_seed(seed, 3))
+    g.manual_seed(derive_seed(seed, 3))
     bound = math.sqrt(6.0 / (width + n_outputs))
     W = (torch.rand(width, n_outputs, generator=g, dtype=torch.float32) * 2.0 - 1.0) * bound
     return W, torch.zeros(n_outputs, dtype=torch.float32)
-
-
-def _derived_seed(seed: int, stream: int) -> int:
-    return int(np.random.SeedSequence([int(seed), stream]).generate_state(1, dtype=np.uint64)[0] >> 1)
 
 
 def _check_task_target(y, n_rows, name, owner, loss, n_outputs):
@@ -416,7 +418,7 @@ class _Prepared:
                 "Size the spec with input_dim=X.shape[1]."
             )
         if task.X_val is None:
-            rng = np.random.default_rng(_derived_seed(seed, 2))
+            rng = np.random.default_rng(derive_seed(seed, 2))
             perm = rng.permutation(len(X))
             n_val = max(1, int(round(config.validation_fraction * len(X))))
             if len(X) - n_val < 2:
@@ -556,6 +558,72 @@ def _output_layer(h, W, b):
     if W.shape[-1] == 1:
         return (h * W.transpose(1, 2)).sum(dim=-1, keepdim=True).add_(b)
     return torch.stack([(h * W[:, None, :, k]).sum(dim=-1) for k in range(W.shape[-1])], dim=-1).add_(b)
+
+
+@dataclass
+class _ReplicaState:
+    """What the trainer keeps per active replica, stacked along the first axis of every tensor.
+
+    When replicas stop, :meth:`keep` drops them from every entry at once. Fields that a training mode does
+    not use are None (``wtrain`` in minibatch mode; ``gens``, ``buffers``, ``idx_chunk`` and the flat views
+    in full-batch mode; ``masks`` before pruning).
+    """
+
+    active: list  # position in the group of each active replica
+    params: list  # weights (R, in, out) then biases (R, 1, out)
+    m1: list  # Adam first moments
+    m2: list  # Adam second moments
+    best: list  # best-validation copies of params
+    best_val: torch.Tensor  # (R,)
+    best_step: torch.Tensor  # (R,)
+    X: torch.Tensor  # (R, n_max, D) padded training rows
+    Y: torch.Tensor
+    Xv: torch.Tensor  # (R, nv_max, D) padded validation rows
+    Yv: torch.Tensor
+    wv: torch.Tensor  # validation row weights (1 / n_val on real rows, 0 on padding)
+    ym: torch.Tensor  # (R, 1) target mean and scale
+    ysc: torch.Tensor
+    wtrain: torch.Tensor | None = None  # full batch: training row weights
+    gens: list | None = None  # minibatch: one generator per replica
+    buffers: list | None = None  # minibatch: rows of the current permutation not yet used
+    idx_chunk: torch.Tensor | None = None  # minibatch: drawn rows of the current chunk of steps
+    masks: list | None = None  # after pruning: 0/1 masks of the weights
+    slabs: list = field(init=False)
+    flat_X: torch.Tensor | None = field(init=False)
+    flat_Y: torch.Tensor | None = field(init=False)
+
+    def __post_init__(self):
+        self._derive()
+
+    def _derive(self):
+        self.slabs = _replica_slabs(self.params, self.m1, self.m2)
+        if self.gens is None:
+            self.flat_X = self.flat_Y = None
+        else:
+            R, n_max = self.Y.shape[:2]
+            self.flat_X, self.flat_Y = self.X.reshape(R * n_max, -1), self.Y.reshape(R * n_max, *self.Y.shape[2:])
+
+    def keep(self, rows: list) -> None:
+        """Keep the replicas at local positions ``rows`` (in this order) and drop the others."""
+        ki = torch.tensor(rows, dtype=torch.int64)
+        self.active = [self.active[i] for i in rows]
+        self.params = [p[ki].contiguous() for p in self.params]
+        self.m1 = [m[ki].contiguous() for m in self.m1]
+        self.m2 = [m[ki].contiguous() for m in self.m2]
+        self.best = [bp[ki].contiguous() for bp in self.best]
+        self.best_val, self.best_step = self.best_val[ki], self.best_step[ki]
+        self.Xv, self.Yv, self.wv, self.ym, self.ysc = self.Xv[ki], self.Yv[ki], self.wv[ki], self.ym[ki], self.ysc[ki]
+        if self.masks is not None:
+            self.masks = [mk[ki].contiguous() for mk in self.masks]
+        if self.gens is None:
+            self.X, self.Y, self.wtrain = self.X[ki], self.Y[ki], self.wtrain[ki]
+        else:
+            self.X, self.Y = self.X[ki].contiguous(), self.Y[ki].contiguous()
+            self.gens = [self.gens[i] for i in rows]
+            self.buffers = [self.buffers[i] for i in rows]
+            if self.idx_chunk is not None:  # a chunk drawn earlier still serves the next steps
+                self.idx_chunk = self.idx_chunk[ki]
+        self._derive()
 
 
 class BatchedTrainer:
@@ -738,45 +806,45 @@ class BatchedTrainer:
         loss = self.loss
         clip = math.isfinite(bound) and loss == "mse"
         # ---- parameters: (R, in, out) weights, (R, 1, out) biases, one init generator per replica
-        Ws, bs = _stacked_init(spec, [_derived_seed(p.seed, 0) for p in reps], self.n_outputs)
+        Ws, bs = _stacked_init(spec, [derive_seed(p.seed, 0) for p in reps], self.n_outputs)
         L = len(Ws)
         params = Ws + bs
-        m1 = [torch.zeros_like(p) for p in params]
-        m2 = [torch.zeros_like(p) for p in params]
-        slabs = _replica_slabs(params, m1, m2)
-        best = [p.clone() for p in params]
         adam_step = torch.zeros((), dtype=torch.float32)  # shared step counter of the fused Adam kernel
         # ---- data
         n_max = max(p.n for p in reps)
-        X = _pad_stack([p.X for p in reps], n_max)
-        Y = _pad_stack([p.y for p in reps], n_max)
         nv_max = max(p.n_val for p in reps)
-        Xv = _pad_stack([p.Xv for p in reps], nv_max)
-        Yv = _pad_stack([p.yv for p in reps], nv_max)
-        wv = _row_weights([p.n_val for p in reps], nv_max)
-        ym = torch.tensor([p.y_mean for p in reps], dtype=torch.float32)[:, None]
-        ysc = torch.tensor([p.y_scale for p in reps], dtype=torch.float32)[:, None]
         if full:
-            wtrain = _row_weights([p.n for p in reps], n_max)
+            stream = {"wtrain": _row_weights([p.n for p in reps], n_max)}
         else:
             B = reps[0].batch
             gens = []
             for p in reps:
                 g = torch.Generator()
-                g.manual_seed(_derived_seed(p.seed, 1))
+                g.manual_seed(derive_seed(p.seed, 1))
                 gens.append(g)
-            buffers = [torch.empty(0, dtype=torch.int64) for _ in reps]
-            idx_chunk = None  # drawn at step 0 (step % chunk == 0), before any use
+            # idx_chunk is drawn at step 0 (step % chunk == 0), before any use
+            stream = {"gens": gens, "buffers": [torch.empty(0, dtype=torch.int64) for _ in reps]}
             chunk = 64
-            flat_X = X.reshape(R * n_max, -1)
-            flat_Y = Y.reshape(R * n_max, *Y.shape[2:])
             w_mb = 1.0 / B
-        # ---- bookkeeping (per active replica)
-        active = list(range(R))
-        best_val = torch.full((R,), float("inf"))
-        best_step = torch.zeros(R, dtype=torch.int64)
+        # ---- everything kept per active replica
+        st = _ReplicaState(
+            active=list(range(R)),
+            params=params,
+            m1=[torch.zeros_like(p) for p in params],
+            m2=[torch.zeros_like(p) for p in params],
+            best=[p.clone() for p in params],
+            best_val=torch.full((R,), float("inf")),
+            best_step=torch.zeros(R, dtype=torch.int64),
+            X=_pad_stack([p.X for p in reps], n_max),
+            Y=_pad_stack([p.y for p in reps], n_max),
+            Xv=_pad_stack([p.Xv for p in reps], nv_max),
+            Yv=_pad_stack([p.yv for p in reps], nv_max),
+            wv=_row_weights([p.n_val for p in reps], nv_max),
+            ym=torch.tensor([p.y_mean for p in reps], dtype=torch.float32)[:, None],
+            ysc=torch.tensor([p.y_scale for p in reps], dtype=torch.float32)[:, None],
+            **stream,
+        )
         results = [None] * R
-        masks = None
         prune_step = int(cfg.prune_at * cfg.max_steps) if cfg.prune else -1
         min_steps = max(cfg.min_steps, prune_step + cfg.eval_every) if cfg.prune else cfg.min_steps
         b1, b2, eps = cfg.beta1, cfg.beta2, cfg.adam_eps
@@ -784,19 +852,19 @@ class BatchedTrainer:
 
         def val_mse():
             """The validation loss early stopping tracks (the MSE for "mse"; see losses.stopping_loss)."""
-            z = _forward(params[:L], params[L:], Xv, low)
+            z = _forward(st.params[:L], st.params[L:], st.Xv, low)
             if loss != "mse":
-                return (stopping_loss(loss, z, Yv) * wv).sum(dim=1)
-            pred = ym + ysc * z
+                return (stopping_loss(loss, z, st.Yv) * st.wv).sum(dim=1)
+            pred = st.ym + st.ysc * z
             if clip:
                 pred = pred.clamp(-bound, bound)
-            return ((pred - Yv) ** 2 * wv).sum(dim=1)
+            return ((pred - st.Yv) ** 2 * st.wv).sum(dim=1)
 
         def finish(local, reason, step):
-            r = active[local]
+            r = st.active[local]
             p = reps[r]
-            Wb = [best[l][local].clone() for l in range(L)]
-            bb = [best[L + l][local, 0].clone() for l in range(L)]
+            Wb = [st.best[l][local].clone() for l in range(L)]
+            bb = [st.best[L + l][local, 0].clone() for l in range(L)]
             def restored_mse(X, y):
                 """MSE (target units, clipped) of the restored float32 network on one replica's rows."""
                 z = _forward([w[None] for w in Wb], [b[None, None] for b in bb], X[None])[0]
@@ -810,7 +878,7 @@ class BatchedTrainer:
             train_mse = restored_mse(p.X, p.y_raw)
             # in mixed precision the tracked validation MSE came from bfloat16 passes: report the restored
             # float32 network's own, like train_mse
-            val = float(best_val[local]) if low is None and loss == "mse" else restored_mse(p.Xv, p.yv)
+            val = float(st.best_val[local]) if low is None and loss == "mse" else restored_mse(p.Xv, p.yv)
             state = {
                 "spec": spec,
                 "weights": [w.numpy() for w in Wb],
@@ -820,7 +888,7 @@ class BatchedTrainer:
                 "y_mean": p.y_mean,
                 "y_scale": p.y_scale,
             }
-            bst = int(best_step[local])
+            bst = int(st.best_step[local])
             results[r] = ReplicaResult(
                 train_mse=train_mse if loss == "mse" else math.nan,
                 val_mse=val if loss == "mse" else math.nan,
@@ -846,20 +914,20 @@ class BatchedTrainer:
             # ---- evaluation, early stopping, caps
             if step % cfg.eval_every == 0 or step == cfg.max_steps:
                 v = val_mse()
-                improved = v < best_val * (1.0 - cfg.tol)
+                improved = v < st.best_val * (1.0 - cfg.tol)
                 if bool(improved.any()):
-                    best_val = torch.where(improved, v, best_val)
-                    best_step = torch.where(improved, torch.full_like(best_step, step), best_step)
+                    st.best_val = torch.where(improved, v, st.best_val)
+                    st.best_step = torch.where(improved, torch.full_like(st.best_step, step), st.best_step)
                     sel = improved
-                    for bp, p in zip(best, params):
+                    for bp, p in zip(st.best, st.params):
                         bp.copy_(torch.where(sel.view(-1, *([1] * (p.ndim - 1))), p, bp))
-                reasons = [None] * len(active)
+                reasons = [None] * len(st.active)
                 if step >= cfg.max_steps:
-                    reasons = ["step_cap"] * len(active)
+                    reasons = ["step_cap"] * len(st.active)
                 elif time.perf_counter() - t0 >= cfg.max_seconds:
-                    reasons = ["time_cap"] * len(active)
+                    reasons = ["time_cap"] * len(st.active)
                 elif step >= min_steps:
-                    stale = (step - best_step) >= cfg.patience_steps
+                    stale = (step - st.best_step) >= cfg.patience_steps
                     reasons = ["patience" if s else None for s in stale.tolist()]
                 if any(reasons):
                     for local, reason in enumerate(reasons):
@@ -868,44 +936,25 @@ class BatchedTrainer:
                     keep = [i for i, rs in enumerate(reasons) if rs is None]
                     if not keep:
                         break
-                    ki = torch.tensor(keep, dtype=torch.int64)
-                    params = [p[ki].contiguous() for p in params]
-                    m1 = [m[ki].contiguous() for m in m1]
-                    m2 = [m[ki].contiguous() for m in m2]
-                    slabs = _replica_slabs(params, m1, m2)
-                    best = [bp[ki].contiguous() for bp in best]
-                    best_val, best_step = best_val[ki], best_step[ki]
-                    Xv, Yv, wv, ym, ysc = Xv[ki], Yv[ki], wv[ki], ym[ki], ysc[ki]
-                    if masks is not None:
-                        masks = [mk[ki].contiguous() for mk in masks]
-                    if full:
-                        X, Y, wtrain = X[ki], Y[ki], wtrain[ki]
-                    else:
-                        X, Y = X[ki].contiguous(), Y[ki].contiguous()
-                        flat_X = X.reshape(len(keep) * n_max, -1)
-                        flat_Y = Y.reshape(len(keep) * n_max, *Y.shape[2:])
-                        gens = [gens[i] for i in keep]
-                        buffers = [buffers[i] for i in keep]
-                        if step % chunk != 0:
-                            idx_chunk = idx_chunk[ki]
-                    active = [active[i] for i in keep]
+                    st.keep(keep)
+            params = st.params
             # ---- pruning to the nonzero budget
             if step == prune_step:
-                masks = self._prune_masks(params[:L])
-                for W, mk in zip(params[:L], masks):
+                st.masks = self._prune_masks(params[:L])
+                for W, mk in zip(params[:L], st.masks):
                     W.mul_(mk)
-                best_val = torch.full_like(best_val, float("inf"))
+                st.best_val = torch.full_like(st.best_val, float("inf"))
             # ---- one Adam step on every active replica
-            Ra = len(active)
+            Ra = len(st.active)
             if full:
-                xb, yb, wb_rows = X, Y, wtrain
+                xb, yb, wb_rows = st.X, st.Y, st.wtrain
             else:
                 if step % chunk == 0:
-                    idx_chunk = self._draw_chunk(reps, active, gens, buffers, chunk, B, n_max)
+                    st.idx_chunk = self._draw_chunk(reps, st.active, st.gens, st.buffers, chunk, B, n_max)
                 offsets = torch.arange(Ra, dtype=torch.int64)[:, None] * n_max
-                flat = (idx_chunk[:, step % chunk, :] + offsets).reshape(-1)
-                xb = flat_X.index_select(0, flat).view(Ra, B, -1)
-                yb = flat_Y.index_select(0, flat).view(Ra, B, *Y.shape[2:])
+                flat = (st.idx_chunk[:, step % chunk, :] + offsets).reshape(-1)
+                xb = st.flat_X.index_select(0, flat).view(Ra, B, -1)
+                yb = st.flat_Y.index_select(0, flat).view(Ra, B, *st.Y.shape[2:])
                 wb_rows = None
             grads = _loss_grads(params[:L], params[L:], xb, yb, w_mb if wb_rows is None else wb_rows, low, loss)
             step += 1
@@ -915,14 +964,13 @@ class BatchedTrainer:
             # tensor: the kernel's vector loop then starts at every replica's first entry, so a
             # replica's arithmetic does not depend on which other replicas share the stack.
             (g_slabs,) = _replica_slabs(grads)
-            torch._fused_adam_(slabs[0], g_slabs, slabs[1], slabs[2], [], [adam_step] * len(g_slabs),
+            torch._fused_adam_(st.slabs[0], g_slabs, st.slabs[1], st.slabs[2], [], [adam_step] * len(g_slabs),
                                lr=lr_at_step(cfg, step - 1), beta1=b1, beta2=b2, weight_decay=0.0, eps=eps,
                                amsgrad=False, maximize=False)
             if cfg.project_weights:
-                for W in params[:L]:
-                    W.clamp_(-wb, wb)
-            if masks is not None:
-                for W, mk in zip(params[:L], masks):
+                clamp_weights(params[:L], wb)
+            if st.masks is not None:
+                for W, mk in zip(params[:L], st.masks):
                     W.mul_(mk)
         return results
 
@@ -946,14 +994,4 @@ class BatchedTrainer:
 
     def _prune_masks(self, Ws):
         """Per-replica global magnitude masks keeping exactly ``spec.nonzero_budget`` weight entries."""
-        Ra = Ws[0].shape[0]
-        flat = torch.cat([W.detach().abs().reshape(Ra, -1) for W in Ws], dim=1)
-        k = min(self.spec.nonzero_budget, flat.shape[1])
-        keep = torch.zeros_like(flat, dtype=torch.bool)
-        keep.scatter_(1, torch.topk(flat, k, dim=1, sorted=False).indices, True)
-        masks, start = [], 0
-        for W in Ws:
-            size = W[0].numel()
-            masks.append(keep[:, start:start + size].reshape(W.shape).to(W.dtype))
-            start += size
-        return masks
+        return magnitude_masks(Ws, self.spec.nonzero_budget)

@@ -20,6 +20,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from manireg._params import check_params, integer, real
 from manireg._results import ResultMixin
 from manireg._validation import check_float, check_int
 from manireg.theory.rates import regression_exponent
@@ -77,21 +78,23 @@ class SizingConstants:
     output_bound: float = math.inf
 
     def __post_init__(self):
-        owner = "SizingConstants"
-        check_float(self.c_depth, "c_depth", owner=owner, low=0.0, low_open=True)
-        check_int(self.depth_min, "depth_min", owner=owner, low=1)
-        check_int(self.depth_max, "depth_max", owner=owner, low=self.depth_min)
-        check_float(self.c_width, "c_width", owner=owner, low=0.0, low_open=True)
-        check_int(self.width_min, "width_min", owner=owner, low=1)
-        check_int(self.width_max, "width_max", owner=owner, low=self.width_min)
-        check_float(self.c_nonzero, "c_nonzero", owner=owner, low=0.0, low_open=True)
-        check_int(self.nonzero_min, "nonzero_min", owner=owner, low=1)
-        check_float(self.weight_bound, "weight_bound", owner=owner, low=0.0, low_open=True)
-        if not (isinstance(self.output_bound, (int, float)) and self.output_bound > 0):
-            raise ValueError(
-                f"the 'output_bound' parameter of SizingConstants must be a real > 0 (inf for no clipping); "
-                f"got {self.output_bound!r}."
-            )
+        check_params(vars(self), SIZING_RULES, owner="SizingConstants")  # checks only: the values stay as given
+
+
+#: What each :class:`SizingConstants` field may hold; the upper bounds of depth and width may not lie
+#: below their lower bounds.
+SIZING_RULES = {
+    "c_depth": real(0.0, low_open=True),
+    "depth_min": integer(1),
+    "depth_max": integer("depth_min"),
+    "c_width": real(0.0, low_open=True),
+    "width_min": integer(1),
+    "width_max": integer("width_min"),
+    "c_nonzero": real(0.0, low_open=True),
+    "nonzero_min": integer(1),
+    "weight_bound": real(0.0, low_open=True),
+    "output_bound": real(0, low_open=True, finite=False, note="inf for no clipping"),
+}
 
 
 @dataclass
