@@ -135,8 +135,9 @@ def table_html(rows, header=None) -> str:
     parts = [f'<table style="{TABLE_CSS}">']
     if header:
         parts.append("<tr>" + "".join(f'<th style="{HEADER_CSS}">{html.escape(h)}</th>' for h in header) + "</tr>")
-    for row in rows:
-        parts.append("<tr>" + "".join(f'<td style="{CELL_CSS}">{c}</td>' for c in row) + "</tr>")
+    for row in rows:  # the first column holds labels: kept on one line
+        parts.append("<tr>" + "".join(f'<td style="{CELL_CSS}{";white-space:nowrap" if i == 0 else ""}">{c}</td>'
+                                      for i, c in enumerate(row)) + "</tr>")
     parts.append("</table>")
     return "".join(parts)
 

@@ -163,10 +163,11 @@ class GeometryPanel(Panel):
         self.embedding_image = self._image()
         self.local_dimension = None
 
-        dim_box = widgets.HBox([
-            widgets.VBox([self.estimators, self.k_range, self.n_neighbors, self.scales, self.n_boot, self.seed,
-                          self.profile_x, self.dimension_html]),
-            self.profile_image,
+        dim_box = widgets.VBox([
+            widgets.HBox([widgets.VBox([self.estimators, self.k_range, self.n_neighbors, self.scales, self.n_boot,
+                                        self.seed, self.profile_x]),
+                          self.profile_image]),
+            self.dimension_html,
         ])
         chart_box = widgets.VBox([
             widgets.HBox([self.chart_dimension, self.min_points]),
@@ -294,7 +295,7 @@ class GeometryPanel(Panel):
         if p["radius"] is None and np.isfinite(summary.radius):
             self._quiet = True  # the number box shows the rule's radius, the start when the rule is switched off
             try:
-                self.radius.value = float(summary.radius)
+                self.radius.value = float(f"{summary.radius:.4g}")
             finally:
                 self._quiet = False
         self.charts_html.value = table_html([

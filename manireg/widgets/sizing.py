@@ -95,8 +95,8 @@ class SizingPanel(Panel):
 
         c = SizingConstants() if constants is None else constants
         self.spec = self.predicted_exponent = self.ambient_exponent = self.table = None
-        style = {"description_width": "220px"}
-        lay = widgets.Layout(width="370px")
+        style = {"description_width": "250px"}
+        lay = widgets.Layout(width="400px")
         self.n = widgets.BoundedIntText(value=int(n), min=2, max=10**9, description="samples n", style=style,
                                         layout=lay)
         self.dimension = widgets.BoundedFloatText(value=float(dimension), min=1.0, max=10**6, step=0.1,
@@ -116,7 +116,7 @@ class SizingPanel(Panel):
             self.constants[name] = cls(value=value, description=label, style=style, layout=lay, **kw)
         self._base_constants = c
         self.n_grid = widgets.Text(value=", ".join(str(int(v)) for v in n_grid), description="sample sizes of the plot",
-                                   style=style, layout=widgets.Layout(width="620px"), continuous_update=False)
+                                   style=style, layout=widgets.Layout(width="650px"), continuous_update=False)
         self.spec_html = widgets.HTML()
         self.image = self._image()
 
