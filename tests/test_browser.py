@@ -58,10 +58,11 @@ PANELS_NOTEBOOK = {
         _code("geometry = GeometryPanel(sample.X, sample.y, true_dimension=2, n_boot=50, seed=0)\n"
               "geometry.add_class('mr-geometry-panel')\ngeometry"),
         # the tiny campaign spans less than a decade of n, so its verdict is not "measured": the planner plans
-        # only with "plan from an unverified fit" ticked (and marks the plan with a warning)
+        # only with "plan from an unverified fit" ticked (and marks the plan with a warning); the target is
+        # above the default floor, the campaign's noise estimate (about 0.19 for these rows)
         _code("curves = CurvePanel(campaign.result(), n_boot=200, seed=0)\n"
               "curves.allow_unverified.value = True\n"
-              "curves.target_error.value = 0.05\n"
+              "curves.target_error.value = 0.3\n"
               "curves.add_class('mr-curve-panel')\ncurves"),
         _code("workbench = WorkbenchPanel(sample.X, sample.y, smoothness=1.0, campaign=campaign,\n"
               "                           geometry_kwargs={'true_dimension': 2, 'n_boot': 50})\n"
@@ -289,7 +290,7 @@ def test_curve_panel(page):
     assert_no_error(panel)
 
     needed_before = table_value(panel, "samples needed")
-    type_into(panel, "target error", 0.1)
+    type_into(panel, "target error", 0.25)  # above the floor (the noise estimate, about 0.19 here)
     wait_value_changes(panel, "samples needed", needed_before)
     assert table_value(panel, "samples needed") != needed_before
     assert_no_error(panel)

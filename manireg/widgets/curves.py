@@ -195,6 +195,7 @@ class CurvePanel(Panel):
             value="value" if isinstance(choice, float) else choice, description="floor",
             style={**style, "button_width": "auto"})
         value0 = choice if isinstance(choice, float) else (true_variance if true_variance is not None else 0.0)
+        value0 = float(f"{value0:.6g}")  # 0.010000000000000002 reads 0.01
         self.floor_value = widgets.BoundedFloatText(value=float(value0), min=0.0, max=1e300, step=0.001,
                                                     description="floor value", disabled=self.floor.value != "value",
                                                     style=style, layout=lay)
@@ -538,7 +539,7 @@ class CurvePanel(Panel):
                                               f"{a['n_parameters']:,} parameters"))
         text = table_html(rows)
         if plan.warning:
-            text += colour_span(WARNING_PREFIX + " ".join(str(plan.warning).split()), "warning")
+            text += colour_span(WARNING_PREFIX + _plain_reason(" ".join(str(plan.warning).split())), "warning")
         self.plan_html.value = text
 
     def results(self) -> CurveResults:
