@@ -22,10 +22,29 @@ import warnings
 
 import ipywidgets as widgets
 
-__all__ = ["Panel", "new_axes", "figure_png", "fmt", "fmt_count", "fmt_interval", "table_html"]
+from ._look import CELL_CSS, HEADER_CSS, STATUS_CSS, TABLE_CSS, WARNING_PREFIX, colour_span
+
+__all__ = ["Panel", "new_axes", "figure_png", "fmt", "fmt_count", "fmt_interval", "table_html", "plain_number",
+           "quiet_libraries", "NOT_AVAILABLE"]
+
+#: How a missing or non-finite number reads on screen (never NaN or inf: widget messages are JSON).
+NOT_AVAILABLE = "not available"
+
+# warnings that are library housekeeping, not about the user's data or settings
+_HOUSEKEEPING = (DeprecationWarning, PendingDeprecationWarning, ImportWarning, FutureWarning)
+# third-party modules whose warnings and log lines a user cannot act on
+_CHATTY = ("numba", "pynndescent", "umap", "tensorflow", "distributed", "matplotlib", "PIL")
 
 # catch_warnings changes process-wide state; one panel call at a time records warnings
 _WARN_LOCK = threading.RLock()
+
+
+def _shown(w) -> bool:
+    """Whether a caught warning is for the user: not library housekeeping, not from a chatty library."""
+    if issubclass(w.category, _HOUSEKEEPING):
+        return False
+    module = str(getattr(w, "filename", "")).replace("\\", "/")
+    return not any(f"/{name}/" in module for name in _CHATTY)
 
 
 def _in_kernel() -> bool:
@@ -53,16 +72,35 @@ def figure_png(fig) -> bytes:
     return buf.getvalue()
 
 
-def fmt(value, digits=3) -> str:
-    """A number for display: ``-`` for None or non-finite, ``inf`` kept."""
+def quiet_libraries() -> None:
+    """Silence third-party chatter (log lines, compilation notes, TensorFlow's start-up notes)."""
+    import logging
+    import os
+
+    for name in _CHATTY:
+        logging.getLogger(name).setLevel(logging.ERROR)
+    os.environ.setdefault("TF_CPP_MIN_LOG_LEVEL", "3")
+
+
+def plain_number(value):
+    """``value`` as a finite float, or None (for None, NaN, inf and non-numbers): what a widget may hold."""
     try:
         v = float(value)
     except (TypeError, ValueError):
-        return "-" if value is None else html.escape(str(value))
+        return None
+    return v if v == v and v not in (float("inf"), float("-inf")) else None
+
+
+def fmt(value, digits=3) -> str:
+    """A number for display: "none" for None, "not available" for NaN, "infinite" for inf."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return "none" if value is None else html.escape(str(value))
     if v != v:
-        return "-"
+        return NOT_AVAILABLE
     if v in (float("inf"), float("-inf")):
-        return "inf" if v > 0 else "-inf"
+        return "infinite" if v > 0 else "minus infinite"
     if abs(v) >= 1e5 or (0 < abs(v) < 1e-3):
         return f"{v:.{digits}g}"
     return f"{v:.{digits}f}" if abs(v) < 100 else f"{v:,.0f}"
@@ -73,30 +111,33 @@ def fmt_count(value) -> str:
     try:
         v = float(value)
     except (TypeError, ValueError):
-        return "-"
+        return "none" if value is None else NOT_AVAILABLE
     if v != v:
-        return "-"
+        return NOT_AVAILABLE
     if v in (float("inf"), float("-inf")):
-        return "inf"
+        return "infinite"
     return f"{v:,.0f}"
 
 
 def fmt_interval(iv, digits=3, *, count=False) -> str:
+    """``[lo, hi]``; "none" without an interval, "not available" when an end is not a number."""
     if iv is None:
-        return "-"
+        return "none"
     lo, hi = iv
+    if plain_number(lo) is None and plain_number(hi) is None:
+        return NOT_AVAILABLE
     f = fmt_count if count else (lambda v: fmt(v, digits))
     return f"[{f(lo)}, {f(hi)}]"
 
 
 def table_html(rows, header=None) -> str:
     """A small two-or-more column HTML table from a list of tuples (already formatted strings)."""
-    parts = ['<table style="border-collapse:collapse;font-size:13px">']
+    parts = [f'<table style="{TABLE_CSS}">']
     if header:
-        parts.append("<tr>" + "".join(f'<th style="text-align:left;padding:2px 10px 2px 0">{html.escape(h)}</th>'
-                                      for h in header) + "</tr>")
-    for row in rows:
-        parts.append("<tr>" + "".join(f'<td style="padding:2px 10px 2px 0">{c}</td>' for c in row) + "</tr>")
+        parts.append("<tr>" + "".join(f'<th style="{HEADER_CSS}">{html.escape(h)}</th>' for h in header) + "</tr>")
+    for row in rows:  # the first column holds labels: kept on one line
+        parts.append("<tr>" + "".join(f'<td style="{CELL_CSS}{";white-space:nowrap" if i == 0 else ""}">{c}</td>'
+                                      for i, c in enumerate(row)) + "</tr>")
     parts.append("</table>")
     return "".join(parts)
 
@@ -126,7 +167,9 @@ class Panel(widgets.VBox):
         self.error = None
         self.last_message = None
         self.notes = []
+        quiet_libraries()
         super().__init__(**kwargs)
+        self.add_class("mr-panel")
 
     # ------------------------------------------------------------------ core calls
     def _call(self, what, func, *args, _show=True, **kwargs):
@@ -148,29 +191,32 @@ class Panel(widgets.VBox):
             except Exception as exc:  # noqa: BLE001 - shown in the panel, never raised into the event loop
                 self._set_error(what, exc, show=_show)
                 return None
-            self.notes = list(dict.fromkeys(str(w.message) for w in caught))
+            self.notes = list(dict.fromkeys(" ".join(str(w.message).split()) for w in caught if _shown(w)))
             if main:
                 for note in self.notes:
-                    print(f"warning ({what}): {note}")
+                    print(WARNING_PREFIX + note)
             if _show:
                 self.error = None
             return result
 
     def _set_error(self, what, exc, show=True):
-        text = f"{what} failed: {type(exc).__name__}: {exc}"
+        text = f"{what} failed: {exc}"
         self.last_message = text
         if show:
             self.error = text
-            self.status.value = f'<span style="color:#b00020">{html.escape(text)}</span>'
+            self.status.value = f'<div style="{STATUS_CSS}">{colour_span(text, "error")}</div>'
         if _in_kernel() and threading.current_thread() is threading.main_thread():
             print(text)
 
     def _set_status(self, text):
         extra = ""
         if self.notes:
-            extra = ('<br><span style="color:#8a6d00">' + "<br>".join(html.escape(n) for n in self.notes[:4])
-                     + "</span>")
-        self.status.value = html.escape(text) + extra
+            extra = "".join("<br>" + colour_span(WARNING_PREFIX + n, "warning") for n in self.notes[:4])
+        self.status.value = f'<div style="{STATUS_CSS}">{html.escape(text)}{extra}</div>'
+
+    def _set_busy(self, text):
+        """Say what a step that may take a while is doing (and how far it is), before it starts."""
+        self.status.value = f'<div style="{STATUS_CSS}">{colour_span("working: " + text, "busy")}</div>'
 
     @staticmethod
     def _draw(image, draw, figsize=(6.4, 4.2)):

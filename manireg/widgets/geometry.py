@@ -13,6 +13,7 @@ Controls -> core call -> result -> figure function:
 
 from __future__ import annotations
 
+import html
 from dataclasses import dataclass, field
 
 import ipywidgets as widgets
@@ -21,11 +22,33 @@ import traitlets
 
 from .._results import ResultMixin
 from ._base import Panel, fmt, fmt_interval, table_html
+from ._look import caption_html, style_button, title_html
 
 __all__ = ["GeometryPanel", "GeometryResults"]
 
-_ESTIMATORS = (("MLE (Levina-Bickel)", "mle"), ("TwoNN", "twonn"), ("local PCA", "lpca"),
-               ("correlation dimension", "corr"))
+_STEPS = 4  # steps of the geometry read-out: dimension, charts, reach, N(r)
+
+
+def _quiet_call(func, *args, **kwargs):
+    """``func(*args, **kwargs)`` with third-party prints (UMAP's and TensorFlow's import notes) swallowed."""
+    import contextlib
+    import io
+
+    with contextlib.redirect_stdout(io.StringIO()), contextlib.redirect_stderr(io.StringIO()):
+        return func(*args, **kwargs)
+
+_ESTIMATORS = (("maximum likelihood (Levina-Bickel)", "mle"), ("two nearest neighbours (TwoNN)", "twonn"),
+               ("local PCA", "lpca"), ("correlation dimension", "corr"))
+#: Plain names of the estimators, for tables and rule texts.
+ESTIMATOR_NAMES = {"mle": "maximum likelihood", "twonn": "two nearest neighbours", "lpca": "local PCA",
+                   "corr": "correlation dimension"}
+
+
+def _plain(text) -> str:
+    """A core text with estimator code names replaced by plain names."""
+    import re
+
+    return re.sub(r"\b(mle|twonn|lpca|corr)\b", lambda m: ESTIMATOR_NAMES[m.group(1)], str(text))
 
 
 @dataclass
@@ -84,77 +107,91 @@ class GeometryPanel(Panel):
         self.y = y
         self.true_dimension = true_dimension
         self.report = self.atlas = self.reach = self.counts = self.embedding = None
+        self._quiet = False
         n = int(np.shape(X)[0])
         kmax = max(4, min(200, n - 2))
-        style = {"description_width": "140px"}
-        wide = widgets.Layout(width="420px")
+        style = {"description_width": "190px"}
+        wide = widgets.Layout(width="470px")
+        narrow = widgets.Layout(width="300px")
 
         self.estimators = widgets.SelectMultiple(options=_ESTIMATORS, value=tuple(estimators), rows=4,
                                                  description="estimators", style=style, layout=wide)
         self.k_range = widgets.IntRangeSlider(value=(min(10, kmax - 1), min(20, kmax)), min=3, max=kmax,
-                                              description="MLE k range", style=style, layout=wide,
+                                              description="likelihood neighbours k", style=style, layout=wide,
                                               continuous_update=False)
-        self.n_neighbors = widgets.IntSlider(value=min(20, kmax), min=3, max=kmax, description="local PCA k",
-                                             style=style, layout=wide, continuous_update=False)
+        self.n_neighbors = widgets.IntSlider(value=min(20, kmax), min=3, max=kmax,
+                                             description="local PCA neighbours k", style=style, layout=wide,
+                                             continuous_update=False)
         self.scales = widgets.Text(value=", ".join(str(k) for k in scales), description="profile scales k",
                                    style=style, layout=wide, continuous_update=False)
         self.n_boot = widgets.IntSlider(value=n_boot, min=0, max=1000, step=50, description="bootstrap draws",
                                         style=style, layout=wide, continuous_update=False)
-        self.seed = widgets.IntText(value=seed, description="seed", style=style, layout=widgets.Layout(width="240px"))
-        self.profile_x = widgets.ToggleButtons(options=[("k", "scale"), ("radius", "radius")], value="scale",
-                                               description="profile axis", style=style)
+        self.seed = widgets.IntText(value=seed, description="seed", style=style, layout=narrow)
+        self.profile_x = widgets.ToggleButtons(options=[("neighbour count k", "scale"),
+                                                        ("neighbour radius", "radius")], value="scale",
+                                               description="profile against", style={**style, "button_width": "auto"})
         self.dimension_html = widgets.HTML()
         self.profile_image = self._image()
 
         self.chart_dimension = widgets.BoundedIntText(value=1, min=1, max=max(1, int(np.shape(X)[1]) - 1),
-                                                      description="chart dimension d", style=style,
-                                                      layout=widgets.Layout(width="240px"))
-        self.radius = widgets.FloatText(value=0.0, description="chart radius (0: rule)", style=style,
-                                        layout=widgets.Layout(width="240px"))
-        self.min_points = widgets.BoundedIntText(value=10, min=2, max=max(3, n - 1), description="min points/chart",
-                                                 style=style, layout=widgets.Layout(width="240px"))
-        self.reach_quantile = widgets.FloatSlider(value=0.0, min=0.0, max=0.5, step=0.01,
-                                                  description="reach quantile (0: inf)", style=style, layout=wide,
-                                                  continuous_update=False)
+                                                      description="chart dimension d", style=style, layout=narrow)
+        self.radius = widgets.BoundedFloatText(value=0.5, min=1e-9, max=1e12, step=0.05, description="chart radius",
+                                               disabled=True, style=style, layout=narrow)
+        self.radius_rule = widgets.Checkbox(value=True, description="use the rule's radius", indent=False,
+                                            layout=widgets.Layout(width="220px"))
+        self.min_points = widgets.BoundedIntText(value=10, min=2, max=max(3, n - 1),
+                                                 description="fewest points per chart", style=style, layout=narrow)
+        self.reach_quantile = widgets.FloatSlider(value=0.05, min=0.01, max=0.5, step=0.01,
+                                                  description="reach quantile", disabled=True, style=style,
+                                                  layout=wide, continuous_update=False)
+        self.reach_infimum = widgets.Checkbox(value=True, description="reach: smallest value over pairs",
+                                              indent=False, layout=widgets.Layout(width="280px"))
         self.charts_html = widgets.HTML()
         self.spectra_image = self._image()
         self.counts_image = self._image()
         self.reach_image = self._image()
 
-        self.embed_button = widgets.Button(description="Compute 2-D view (UMAP)", button_style="info",
-                                           layout=widgets.Layout(width="240px"))
+        self.embed_button = style_button(widgets.Button(description="Compute the 2-D view (UMAP)",
+                                                        layout=widgets.Layout(width="260px")), "action")
         self.umap_neighbors = widgets.IntSlider(value=15, min=2, max=min(100, max(2, n - 1)),
                                                 description="UMAP neighbours", style=style, layout=wide,
                                                 continuous_update=False)
-        colour = [("chart", "chart"), ("local dimension", "dimension")] + ([("target", "target")] if y is not None else [])
-        self.colour_by = widgets.Dropdown(options=colour, value=colour[-1][1], description="colour by", style=style)
+        colour = [("chart", "chart"), ("local dimension (maximum likelihood)", "dimension")] + (
+            [("target", "target")] if y is not None else [])
+        self.colour_by = widgets.Dropdown(options=colour, value=colour[-1][1], description="colour by", style=style,
+                                          layout=wide)
         self.embedding_image = self._image()
         self.local_dimension = None
 
-        dim_box = widgets.HBox([
-            widgets.VBox([self.estimators, self.k_range, self.n_neighbors, self.scales, self.n_boot, self.seed,
-                          self.profile_x, self.dimension_html]),
-            self.profile_image,
+        dim_box = widgets.VBox([
+            widgets.HBox([widgets.VBox([self.estimators, self.k_range, self.n_neighbors, self.scales, self.n_boot,
+                                        self.seed, self.profile_x]),
+                          self.profile_image]),
+            self.dimension_html,
         ])
         chart_box = widgets.VBox([
-            widgets.HBox([self.chart_dimension, self.radius, self.min_points]),
-            self.reach_quantile, self.charts_html,
+            widgets.HBox([self.chart_dimension, self.min_points]),
+            widgets.HBox([self.radius, self.radius_rule]),
+            widgets.HBox([self.reach_quantile, self.reach_infimum]), self.charts_html,
             widgets.HBox([self.spectra_image, self.counts_image, self.reach_image]),
         ])
         view_box = widgets.VBox([widgets.HBox([self.embed_button, self.colour_by]), self.umap_neighbors,
                                  self.embedding_image])
         self.children = (
-            widgets.HTML("<b>Intrinsic dimension</b>"), dim_box,
-            widgets.HTML("<b>Charts, N(r) and reach</b>"), chart_box,
-            widgets.HTML("<b>2-D view</b> (for viewing only; no reported number uses it)"), view_box,
+            widgets.HTML(title_html("Intrinsic dimension")), dim_box,
+            widgets.HTML(title_html("Charts, N(r) and reach")), chart_box,
+            widgets.HTML(title_html("2-D view")),
+            widgets.HTML(caption_html("for viewing only; no reported number uses it")), view_box,
             self.status, self.out,
         )
 
         for w in (self.estimators, self.k_range, self.n_neighbors, self.scales, self.n_boot, self.seed):
             w.observe(self.update_dimension, names="value")
         self.profile_x.observe(self._redraw_profile, names="value")
+        self.radius_rule.observe(self._on_optional, names="value")
+        self.reach_infimum.observe(self._on_optional, names="value")
         for w in (self.chart_dimension, self.radius, self.min_points, self.reach_quantile):
-            w.observe(self.update_charts, names="value")
+            w.observe(self._on_chart_control, names="value")
         self.embed_button.on_click(self.update_embedding)
         self.colour_by.observe(self._redraw_embedding, names="value")
         if auto:
@@ -169,11 +206,22 @@ class GeometryPanel(Panel):
                 "scales": scales or None, "n_boot": int(self.n_boot.value), "seed": int(self.seed.value)}
 
     def chart_settings(self) -> dict:
-        q = float(self.reach_quantile.value)
+        """Keyword arguments of the chart, reach and N(r) calls, from the controls (None: the rule's value)."""
         return {"dimension": int(self.chart_dimension.value),
-                "radius": float(self.radius.value) if self.radius.value > 0 else None,
-                "min_points": int(self.min_points.value), "quantile": q if q > 0 else None,
+                "radius": None if self.radius_rule.value else float(self.radius.value),
+                "min_points": int(self.min_points.value),
+                "quantile": None if self.reach_infimum.value else float(self.reach_quantile.value),
                 "seed": int(self.seed.value)}
+
+    def _on_chart_control(self, change=None):
+        if not self._quiet:
+            self.update_charts()
+
+    def _on_optional(self, change=None):
+        """A "use the rule" checkbox changed: enable or disable its number and recompute the charts."""
+        self.radius.disabled = bool(self.radius_rule.value)
+        self.reach_quantile.disabled = bool(self.reach_infimum.value)
+        self.update_charts()
 
     # ------------------------------------------------------------------ updates
     def update_dimension(self, change=None):
@@ -185,7 +233,9 @@ class GeometryPanel(Panel):
         except ValueError as exc:
             self._set_error("reading the scales", exc)
             return
-        report = self._call("dimension estimate", estimate_dimension, self.X, **kwargs)
+        self._set_busy(f"geometry read-out, step 1 of {_STEPS}: intrinsic dimension of {len(self.X):,} points "
+                       f"({len(kwargs['estimators'])} estimators, {kwargs['n_boot']} bootstrap draws)")
+        report = self._call("the dimension estimate", estimate_dimension, self.X, **kwargs)
         if report is None:
             return
         self.report = report
@@ -193,7 +243,7 @@ class GeometryPanel(Panel):
         self.consensus = float(report.consensus)
         self.dimension_html.value = self._dimension_table(report)
         self._redraw_profile()
-        self._set_status(f"dimension: consensus {fmt(report.consensus, 2)} ({report.consensus_rule})")
+        self._set_status(f"dimension: consensus {fmt(report.consensus, 2)} ({_plain(report.consensus_rule)})")
         d = int(max(1, min(self.chart_dimension.max, round(float(report.consensus)))))
         if d != self.chart_dimension.value:
             self.chart_dimension.value = d  # observer recomputes the charts
@@ -202,11 +252,13 @@ class GeometryPanel(Panel):
 
     @staticmethod
     def _dimension_table(report) -> str:
-        rows = [(e.estimator, fmt(e.dimension, 2), fmt_interval((e.lower, e.upper), 2), e.interval_kind)
+        rows = [(ESTIMATOR_NAMES.get(e.estimator, e.estimator), fmt(e.dimension, 2),
+                 fmt_interval((e.lower, e.upper), 2), html.escape(_plain(e.interval_kind)))
                 for e in report.estimates]
-        rows.append(("<b>consensus</b>", f"<b>{fmt(report.consensus, 2)}</b>", "", report.consensus_rule))
-        rows.append(("plateau", f"k = {report.plateau[0]}..{report.plateau[1]}", "", ""))
-        return table_html(rows, header=("estimator", "d", "interval", "kind"))
+        rows.append(("<b>consensus</b>", f"<b>{fmt(report.consensus, 2)}</b>", "",
+                     html.escape(_plain(report.consensus_rule))))
+        rows.append(("plateau", f"k = {report.plateau[0]} to {report.plateau[1]}", "", ""))
+        return table_html(rows, header=("estimator", "dimension d", "interval", "interval from"))
 
     def _redraw_profile(self, change=None):
         if self.report is None:
@@ -223,29 +275,39 @@ class GeometryPanel(Panel):
         from manireg.geometry.reach import estimate_reach
 
         p = self.chart_settings()
-        atlas = self._call("charts", lambda: ChartAtlas(radius=p["radius"], dimension=p["dimension"],
+        self._set_busy(f"geometry read-out, step 2 of {_STEPS}: charts of dimension {p['dimension']}")
+        atlas = self._call("the charts", lambda: ChartAtlas(radius=p["radius"], dimension=p["dimension"],
                                                         min_points=p["min_points"],
                                                         random_state=p["seed"]).fit(self.X))
         if atlas is None:
             return
-        reach = self._call("reach", estimate_reach, self.X, p["dimension"], quantile=p["quantile"],
+        self._set_busy(f"geometry read-out, step 3 of {_STEPS}: reach")
+        reach = self._call("the reach estimate", estimate_reach, self.X, p["dimension"], quantile=p["quantile"],
                            random_state=p["seed"])
         if reach is None:
             return
-        counts = self._call("chart counts", chart_counts, self.X, random_state=p["seed"])
+        self._set_busy(f"geometry read-out, step 4 of {_STEPS}: chart counts N(r)")
+        counts = self._call("the chart counts", chart_counts, self.X, random_state=p["seed"])
         if counts is None:
             return
         self.atlas, self.reach, self.counts = atlas, reach, counts
         summary = atlas.summary()
+        if p["radius"] is None and np.isfinite(summary.radius):
+            self._quiet = True  # the number box shows the rule's radius, the start when the rule is switched off
+            try:
+                self.radius.value = float(f"{summary.radius:.4g}")
+            finally:
+                self._quiet = False
         self.charts_html.value = table_html([
             ("charts", str(summary.n_charts)),
             ("chart radius", f"{fmt(summary.radius)} ({summary.radius_rule})"),
             ("reach", f"{fmt(reach.reach)} (pair distance {fmt(reach.pair_distance)})"),
             ("recommended radius", fmt(reach.recommended_radius)),
             ("points per chart", f"{summary.points_per_chart['min']} / {fmt(summary.points_per_chart['median'], 1)}"
-                                 f" / {summary.points_per_chart['max']} (min / median / max)"),
+                                 f" / {summary.points_per_chart['max']} (fewest / median / most)"),
             ("tangent share", fmt(summary.tangent_share)),
-            ("N(r) slope", f"{fmt(counts.slope, 2)} (dimension {fmt(counts.dimension_estimate, 2)})"),
+            ("N(r) slope", f"{fmt(counts.slope, 2)}, a dimension of {fmt(counts.dimension_estimate, 2)} "
+                           "(diagnostic, no interval)"),
         ])
         from manireg.plots.charts import plot_chart_counts, plot_reach, plot_spectra
 
@@ -261,8 +323,10 @@ class GeometryPanel(Panel):
         from manireg.geometry.embedding import embed_2d
 
         self.embed_button.disabled = True
+        self._set_busy(f"2-D view: UMAP on {len(self.X):,} points, one step with no progress of its own (the first "
+                       "view of a session also compiles UMAP's code, which can take half a minute)")
         try:
-            emb = self._call("2-D view", embed_2d, self.X, random_state=int(self.seed.value),
+            emb = self._call("the 2-D view", _quiet_call, embed_2d, self.X, random_state=int(self.seed.value),
                              n_neighbors=int(self.umap_neighbors.value))
         finally:
             self.embed_button.disabled = False
@@ -270,7 +334,8 @@ class GeometryPanel(Panel):
             return
         self.embedding = emb
         self._redraw_embedding()
-        self._set_status(f"2-D view: {emb.method}, {emb.n_neighbors} neighbours")
+        method = {"umap": "UMAP", "pca": "first two principal components"}.get(emb.method, emb.method)
+        self._set_status(f"2-D view: {method}, {emb.n_neighbors} neighbours")
 
     def _colour_values(self, kind):
         if kind == "target":
