@@ -25,7 +25,7 @@ __all__ = [
     "LEARNER_STYLES", "ESTIMATOR_STYLES", "RESERVE_STYLES", "learner_style", "estimator_style",
     "REFERENCE_LINES", "reference_line", "LIMITED_MARK",
     "VERDICT_BADGES", "NEUTRAL_BADGE", "verdict_badge", "badge_svg", "badge_html",
-    "ERROR", "WARNING", "STATUS", "BUTTONS",
+    "ERROR", "WARNING", "STATUS", "BUTTONS", "WARNING_PREFIX",
     "fmt_number", "fmt_interval", "fmt_value", "plain_label", "PLAIN_LABELS",
     "exponent_text", "predicted_text", "rc", "apply_style",
 ]
@@ -44,7 +44,9 @@ LEARNER_STYLES = {
     "net": {"color": "#27479a", "marker": "o", "label": "network"},
     "knn": {"color": "#e5892a", "marker": "s", "label": "k nearest neighbours"},
     "kernel_ridge": {"color": "#4fb9c2", "marker": "D", "label": "kernel ridge"},
-    "classifier": {"color": "#7b2153", "marker": "^", "label": "classifier"},
+    "net_classifier": {"color": "#7b2153", "marker": "^", "label": "network classifier"},
+    "knn_classifier": {"color": "#4e561c", "marker": "P", "label": "k nearest neighbours classifier"},
+    "logistic": {"color": "#2f1bcd", "marker": "h", "label": "logistic regression (ambient baseline)"},
     "policy": {"color": "#c0a070", "marker": "v", "label": "policy"},
 }
 
@@ -202,6 +204,8 @@ def badge_html(verdict) -> str:
 
 # ----------------------------------------------------------------------------- status, errors, buttons
 ERROR = "#a23b1e"    # brick: error text and borders
+#: The one prefix of every warning line, on the command line and in the panels.
+WARNING_PREFIX = "warning: "
 WARNING = "#9a6a00"  # ochre: warnings in text
 #: Status colours of panels and the report (text colour on a light background; ``*_bg`` for fills).
 STATUS = {

@@ -364,7 +364,7 @@ def test_scan_shows_where_the_curve_bends():
     assert scan["exponent"].iloc[-1] == pytest.approx(0.3, abs=0.1)
 
 
-def test_resolve_floor_is_the_one_place_for_the_choice():
+def test_floor_model_from_a_floor_argument():
     assert floor_model(None).model == "loglog"
     assert floor_model(0.01).value == 0.01
     assert floor_model("estimate", 0.02).model == "excess"

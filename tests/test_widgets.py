@@ -348,19 +348,20 @@ def test_curve_panel_default_fit_is_the_campaign_default(finished_campaign):
         assert f"{result.noise_estimate:.4f}"[:5] in panel.noise_html.value
 
 
-def test_curve_panel_floor_choices_go_through_resolve_floor(finished_campaign, monkeypatch):
+def test_curve_panel_floor_choices_go_through_choose_floor(finished_campaign, monkeypatch):
     import manireg.curves.floors as floors
 
     spy = Spy(fitting.fit_exponent)
     monkeypatch.setattr(fitting, "fit_exponent", spy)
-    resolve_spy = Spy(floors.resolve_floor)
-    monkeypatch.setattr(floors, "resolve_floor", resolve_spy)
+    resolve_spy = Spy(floors.choose_floor)
+    monkeypatch.setattr(floors, "choose_floor", resolve_spy)
     result = finished_campaign.result()
     panel = CurvePanel(result, n_boot=20, target_error=0.05)
     # exactly the four choices of floors.py, labelled in its words
     assert [v for _, v in panel.floor.options] == [*floors.FLOOR_CHOICES, "value"]
     assert [lab for lab, _ in panel.floor.options][:3] == [floors.describe_floor(c) for c in floors.FLOOR_CHOICES]
-    assert resolve_spy.calls[-1][0] == ("estimate", result.noise_estimate)
+    choice, metric, noise = resolve_spy.calls[-1][0]
+    assert (choice, metric) == ("estimate", "test_mse") and noise == result.noise_level
     assert panel.learner.value == "net"
     html_before = panel.exponent_html.value
     exp_before = panel.fit.exponent

@@ -17,8 +17,7 @@ __all__ = ["UsageError", "out_dir", "write_json", "load", "say", "warn", "steps_
            "parse_floor_option", "parse_sizing", "add_data_options", "add_run_options", "add_floor_option",
            "WARNING_PREFIX"]
 
-#: The one prefix of every warning line on the command line (and in the panels).
-WARNING_PREFIX = "warning: "
+from ..style import WARNING_PREFIX  # the one prefix of every warning line (CLI and panels)
 
 
 class UsageError(Exception):

@@ -9,27 +9,29 @@ from __future__ import annotations
 
 import html
 
+from .. import style
+
 __all__ = ["COLOURS", "TABLE_CSS", "HEADER_CSS", "CELL_CSS", "TITLE_CSS", "CAPTION_CSS", "STATUS_CSS",
            "WARNING_PREFIX", "style_button", "style_progress", "colour_span", "title_html", "caption_html"]
 
-#: Panel colours (text on white; the button colours carry white text).
+#: Panel colours, taken from the one style module (manireg.style) that the figures and the report use too.
 COLOURS = {
-    "ink": "#22313f",          # body text, table labels
-    "muted": "#5f6f7e",        # captions, secondary text
-    "rule": "#d5dde4",         # table rules
-    "run": "#1f6f78",          # "start / resume", "set up campaign": a deep teal
-    "pause": "#7a5c2e",        # "pause": a brown
-    "action": "#3d4f8f",       # other actions ("compute the 2-D view"): an indigo
-    "button_text": "#ffffff",
-    "disabled": "#9aa6b1",
-    "progress": "#1f6f78",     # progress bar while running
-    "progress_done": "#3a7d44",
-    "progress_paused": "#9a7b2f",
-    "measured": "#3a7d44",     # verdict "measured"
-    "unverified": "#9a6418",   # any other verdict
-    "warning": "#8c6410",      # warning lines
-    "error": "#8e2442",        # error lines: a claret of our own
-    "busy": "#1f6f78",         # "working: ..." status lines
+    "ink": style.INK,
+    "muted": style.MUTED,
+    "rule": style.RULE,
+    "run": style.BUTTONS["primary"]["background"],     # "start / resume", "set up campaign"
+    "pause": style.STATUS["paused"],
+    "action": style.BUTTONS["primary"]["border"],      # other actions ("compute the 2-D view")
+    "button_text": style.BUTTONS["primary"]["color"],
+    "disabled": style.STATUS["idle"],
+    "progress": style.STATUS["running"],
+    "progress_done": style.STATUS["done"],
+    "progress_paused": style.STATUS["paused"],
+    "measured": style.STATUS["done"],
+    "unverified": style.WARNING,
+    "warning": style.WARNING,
+    "error": style.ERROR,
+    "busy": style.STATUS["running"],
 }
 
 _FONT = "font-family: 'Source Sans 3', 'Segoe UI', Helvetica, Arial, sans-serif"
@@ -41,8 +43,8 @@ TITLE_CSS = f"font-size:14px;font-weight:600;color:{COLOURS['ink']};margin:6px 0
 CAPTION_CSS = f"font-size:12px;color:{COLOURS['muted']};{_FONT}"
 STATUS_CSS = f"font-size:13px;color:{COLOURS['ink']};{_FONT}"
 
-#: The one prefix of every warning a panel shows.
-WARNING_PREFIX = "warning: "
+#: The one prefix of every warning (style.WARNING_PREFIX), on the command line and in the panels.
+WARNING_PREFIX = style.WARNING_PREFIX
 
 _BUTTON_ROLES = ("run", "pause", "action")
 

@@ -7,7 +7,7 @@ how many were found and how many remain (:meth:`~manireg.curves.Campaign.progres
 are reloaded, the progress bar moves (cells finished of the total) and the curves are refitted and redrawn.
 
 The floor offers the choices of :mod:`manireg.curves.floors` (none, fitted, the campaign's noise-variance
-estimate, a value; default: the estimate) and goes through :func:`~manireg.curves.floors.resolve_floor` with the
+estimate, a value; default: the estimate) and goes through :func:`~manireg.curves.floors.choose_floor` with the
 campaign's own noise estimate, so with its default controls the panel shows what ``CampaignResult.fit`` and the
 command line give for the same rows.
 
@@ -25,6 +25,7 @@ from dataclasses import dataclass, field
 import ipywidgets as widgets
 
 from .._results import ResultMixin
+from ..curves.noise import NoiseLevel
 from ._base import Panel, fmt, fmt_count, fmt_interval, plain_number, table_html
 from ._look import WARNING_PREFIX, caption_html, colour_span, style_button, style_progress, title_html
 
@@ -144,13 +145,13 @@ class CurvePanel(Panel):
             if noise_estimate is None:
                 self._set_busy(f"noise-variance estimate on the {len(data.y) - len(data.test_idx):,} rows outside "
                                "the test set")
-                noise_estimate = self._call("the noise-variance estimate", source.noise_estimate)
+                noise_estimate = self._call("the noise-variance estimate", source.noise_level)
             self.rows = source.result().rows
         elif isinstance(source, CampaignResult):
             meta = {"dimension": source.dimension, "smoothness": source.smoothness,
                     "ambient_dim": source.ambient_dim, "noise_variance": source.noise_variance}
             if noise_estimate is None:
-                noise_estimate = source.noise_estimate
+                noise_estimate = source.noise_level
             self.rows = source.rows
             sizes = sorted(int(v) for v in self.rows["n"].unique())
             self.cells_total = len(self.rows)
@@ -166,7 +167,10 @@ class CurvePanel(Panel):
             )
         if len(sizes) < 2:
             raise ValueError(f"CurvePanel: a learning curve needs at least 2 sizes; got {sizes}. Add sizes.")
-        self.noise_estimate = plain_number(noise_estimate)
+        # the campaign's estimate with its interval, the one the command line and CampaignResult.fit use
+        self.noise_level = noise_estimate if hasattr(noise_estimate, "value") else (
+            None if plain_number(noise_estimate) is None else NoiseLevel(plain_number(noise_estimate)))
+        self.noise_estimate = None if self.noise_level is None else plain_number(self.noise_level.value)
         choice = parse_floor(DEFAULT_FLOOR if floor is None else floor)
         true_variance = plain_number(meta.get("noise_variance"))
         style = {"description_width": "170px"}
@@ -314,11 +318,12 @@ class CurvePanel(Panel):
     def fit_settings(self) -> dict:
         """Keyword arguments of ``fit_exponent`` from the controls (``learner`` and ``rows`` aside).
 
-        The floor goes through :func:`manireg.curves.floors.resolve_floor` with the campaign's noise estimate.
+        The floor goes through :func:`manireg.curves.floors.choose_floor` with the campaign's noise estimate.
         """
-        from manireg.curves.floors import resolve_floor
+        from manireg.curves.floors import choose_floor
 
-        floor, extra = resolve_floor(self.floor_choice(), self.noise_estimate)
+        floor, nv, _ = choose_floor(self.floor_choice(), self.metric.value, self.noise_level)
+        extra = {} if nv is None else {"noise_variance": nv}
         lo, hi = self.n_range.value
         full = (lo, hi) == (self.n_range.options[0][1], self.n_range.options[-1][1])
         return {"metric": self.metric.value, "n_range": None if full else (lo, hi), "n_boot": int(self.n_boot.value),
