@@ -158,6 +158,8 @@ VERDICT_BADGES = {
     "measured": {"color": "#2f8a57", "shape": "disc", "glyph": "check", "label": "measured"},
     "not a power law over this range": {"color": "#d09216", "shape": "diamond", "glyph": "wave", "label": "not a power law here"},
     "insufficient data": {"color": "#8c5aa8", "shape": "triangle", "glyph": "dots", "label": "too little data"},
+    "power law not shown at this precision": {"color": "#3016bf", "shape": "hexagon", "glyph": "wave",
+                                              "label": "not shown at this precision"},
 }
 #: The badge of a verdict this module does not know (never an error).
 NEUTRAL_BADGE = {"color": "#8a9098", "shape": "square", "glyph": "query", "label": None}
@@ -176,6 +178,7 @@ _SHAPES = {
     "diamond": "<polygon points='8,0.6 15.4,8 8,15.4 0.6,8'/>",
     "triangle": "<polygon points='8,1 15.2,14.6 0.8,14.6'/>",
     "square": "<rect x='1.5' y='1.5' width='13' height='13' rx='2'/>",
+    "hexagon": "<polygon points='4.3,1.2 11.7,1.2 15.4,8 11.7,14.8 4.3,14.8 0.6,8'/>",
 }
 _GLYPHS = {
     "check": "<polyline points='4.3,8.4 7,11 11.8,5.4' fill='none' stroke='#fff' stroke-width='2' stroke-linecap='round' stroke-linejoin='round'/>",
