@@ -175,11 +175,15 @@ class LazyTable:
         if self.target_name is None:
             return None
         if self.format == "npy":
-            mm = self._memmap()
-            try:
-                return np.array(mm[:, self._target_column], dtype=np.float64)
-            finally:
-                del mm
+            # block by block: a strided read of one column would map every page of the file at once
+            out = np.empty(self.shape[0])
+            for a in range(0, self.shape[0], self.chunk_rows):
+                mm = self._memmap()
+                try:
+                    out[a:a + self.chunk_rows] = mm[a:a + self.chunk_rows, self._target_column]
+                finally:
+                    del mm
+            return out
         if self.format == "parquet":
             import pyarrow.parquet as pq
 
