@@ -46,6 +46,9 @@ def add_parser(sub):
     p.add_argument("--allow-unverified", action="store_true", help="plan even from a curve without a measured exponent")
     p.add_argument("--no-geometry", action="store_true", help="skip the geometry read-out (needs --dimension)")
     p.add_argument("--no-view", action="store_true", help="skip the 2-D view in the geometry read-out")
+    p.add_argument("--on-disk", action="store_true",
+                   help="leave the file on disk (.npy, .parquet, .zarr): workers read their rows by index; the geometry "
+                        "read-out uses query and landmark subsamples")
     add_run_options(p, "manireg-out/curves")
     p.set_defaults(func=run)
     return p
@@ -103,26 +106,48 @@ def run(args) -> int:
     floor = parse_floor_option(args.floor)
     sizing = parse_sizing(args.sizing)
     s, s_range = smoothness_choice(args)
-    table = load_labelled(args) if classify else load(args, target_required=True)
+    disk_geo = None
+    if args.on_disk:
+        if classify:
+            raise UsageError("--on-disk reads regression targets; a classification campaign loads its table into memory "
+                             "(leave out --on-disk).")
+        from ..data import open_table
+
+        table = open_table(args.data, args.target, features=args.features, drop=args.drop)
+        say(f"data: {table.n_samples:,} rows x {table.n_features} feature columns in {args.data} (left on disk); "
+            f"target '{table.target_name}'")
+        X, y, D = table, None, table.n_features
+    else:
+        table = load_labelled(args) if classify else load(args, target_required=True)
+        X, y, D = table.X, table.y, table.X.shape[1]
     test_size, sizes = check_sizes(args.sizes, table.n_samples, owner="--sizes")  # before any work or file
     if classify:
         check_classes(table, sizes[0])
     out = out_dir(args.out)
     geo = None
-    if not args.no_geometry:
+    if args.on_disk and not args.no_geometry:
+        from ..geometry.ondisk import describe_geometry_on_disk
+
+        disk_geo = describe_geometry_on_disk(table, seed=args.seed)
+        say(str(disk_geo))
+        consensus = disk_geo.consensus
+    elif not args.no_geometry:
         geo = describe(table.X, table.y, seed=args.seed, view=not args.no_view, progress=not args.quiet)
         say(str(geo.dimension))
-    d = args.dimension if args.dimension is not None else working_dimension(geo.dimension.consensus)
+        consensus = geo.dimension.consensus
+    d = args.dimension if args.dimension is not None else working_dimension(consensus)
     store = args.store or os.path.join(out, "campaign.sqlite")
     name = args.campaign or "campaign"
     learners = learner_specs(args.learners, args.width_multipliers, args.precision, sizing)
-    campaign = Campaign(X=table.X, y=table.y, sizes=args.sizes, repeats=args.repeats, learners=learners,
+    campaign = Campaign(X=X, y=y, sizes=args.sizes, repeats=args.repeats, learners=learners,
                         dimension=d, smoothness=s, seed=args.seed, name=name, store=store, task=args.task,
                         dimension_source="given" if args.dimension is not None else "geometry read-out (rounded consensus)",
                         dimension_interval=None if geo is None or args.dimension is not None else dimension_range(geo.dimension))
     extra = {"source": args.data, "target": args.target}
     if geo is not None:
         extra["geometry"] = geo.to_dict()
+    if disk_geo is not None:
+        extra["geometry_on_disk"] = disk_geo.to_dict()
     executor = "dask" if args.scheduler else ("processes" if args.workers else "inprocess")
     state = campaign.progress()
     say(f"\ncampaign '{name}': {state['total']} cells (sizes {campaign.data.sizes}, {args.repeats} repeats, learners "
@@ -142,7 +167,7 @@ def run(args) -> int:
         "learners": [l.name for l in campaign.data.learners], "precision": args.precision,
         "smoothness_range": s_range, "sizing_constants": sizing or None})
     write(out, f"manireg curves: {os.path.basename(args.data)}",
-          data={"source": args.data, "target": args.target, "n_samples": table.n_samples, "ambient_dim": table.X.shape[1]},
+          data={"source": args.data, "target": args.target, "n_samples": table.n_samples, "ambient_dim": D},
           geometry=geo, campaign=result, settings=settings, **parts)
     return 0
 

@@ -15,6 +15,11 @@ def add_parser(sub):
     p.add_argument("--dimension", type=int, metavar="d", help="intrinsic dimension for charts and reach (default: the rounded consensus)")
     p.add_argument("--radius", type=float, metavar="r", help="chart radius (default: the rule's radius, from the reach estimate)")
     p.add_argument("--no-view", action="store_true", help="skip the 2-D view of the data")
+    p.add_argument("--on-disk", action="store_true",
+                   help="read the file in chunks instead of loading it (.npy, .parquet, .zarr): dimension from the "
+                        "exact neighbours of --queries rows, charts and reach on --landmarks rows")
+    p.add_argument("--queries", type=int, default=2000, metavar="N", help="query rows of the neighbour pass with --on-disk (default: %(default)s)")
+    p.add_argument("--landmarks", type=int, default=4000, metavar="N", help="rows the charts and reach are fitted on with --on-disk (default: %(default)s)")
     add_run_options(p, "manireg-out/geometry")
     p.set_defaults(func=run)
     return p
@@ -35,9 +40,31 @@ def describe(X, y, *, seed, view, dimension=None, radius=None, progress=True, n_
     return geo
 
 
+def run_on_disk(args) -> int:
+    """``--on-disk``: the read-out of :func:`manireg.geometry.ondisk.describe_geometry_on_disk`."""
+    from ..data import open_table
+    from ..geometry.ondisk import describe_geometry_on_disk
+
+    table = open_table(args.data, args.target, features=args.features, drop=args.drop)
+    say(f"data: {table.n_samples:,} rows x {table.n_features} feature columns in {args.data} (read in chunks)")
+    out = out_dir(args.out)
+    cb, close = steps_bar(("dimension", "charts"), not args.quiet, "geometry")
+    try:
+        geo = describe_geometry_on_disk(table, n_queries=args.queries, n_landmarks=args.landmarks,
+                                        dimension=args.dimension, radius=args.radius, seed=args.seed, callback=cb)
+    finally:
+        close()
+    say(str(geo))
+    write_json(os.path.join(out, "geometry.json"), geo.to_dict())
+    say(f"\nwritten: {os.path.join(out, 'geometry.json')}")
+    return 0
+
+
 def run(args) -> int:
     from ..plots import plot_chart_counts, plot_dimension_profile, plot_spectra
 
+    if args.on_disk:
+        return run_on_disk(args)
     table = load(args, target_required=False)
     out = out_dir(args.out)
     geo = describe(table.X, table.y, seed=args.seed, view=not args.no_view, dimension=args.dimension,

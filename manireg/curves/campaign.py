@@ -279,9 +279,11 @@ class Campaign:
             from manireg.curves.noise import noise_variance
 
             pool = np.setdiff1d(np.arange(len(self.data.y)), self.data.test_idx)
+            if self.data.on_disk and len(pool) > 50_000:  # data on disk: a seeded subsample of the pool
+                pool = np.sort(np.random.default_rng(self.data.seed).choice(pool, 50_000, replace=False))
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")  # duplicates are reported by the geometry read-out
-                self._noise = noise_variance(self.data.X[pool], self.data.y[pool], seed=self.data.seed).level()
+                self._noise = noise_variance(self.data.take(pool), self.data.y[pool], seed=self.data.seed).level()
         return self._noise
 
     def result(self, summary=None) -> CampaignResult:

@@ -44,9 +44,22 @@ from manireg._validation import check_choice, check_int
 from manireg.curves.learners import make_learner
 from manireg.curves.sweep import ROW_COLUMNS, canonical_json
 
-__all__ = ["run_cells", "run_unit", "make_units", "EXECUTORS", "RunSummary"]
+__all__ = ["run_cells", "run_unit", "make_units", "EXECUTORS", "RunSummary", "SchedulerUnreachable", "WorkerLost",
+           "SCHEDULER_TIMEOUT"]
 
 EXECUTORS = ("inprocess", "processes", "dask")
+
+#: Seconds to wait for a dask scheduler given by address before giving up with :class:`SchedulerUnreachable`.
+SCHEDULER_TIMEOUT = 15.0
+
+
+class SchedulerUnreachable(ValueError):
+    """The dask scheduler address did not answer within :data:`SCHEDULER_TIMEOUT` seconds (nothing ran)."""
+
+
+class WorkerLost(RuntimeError):
+    """A worker process died while running a unit. Every unit that finished is stored; the lost unit's
+    cells were not written and run when the campaign is resumed."""
 
 
 class RunSummary(dict):
@@ -233,6 +246,15 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
             _run_joblib(make_units(pending, data, workers), data, workers, torch_threads, record)
         else:
             _run_dask(pending, data, scheduler, n_jobs or 2, torch_threads, record)
+    except Exception as exc:  # a dead worker: say what is kept and how to go on
+        if type(exc).__name__ not in ("TerminatedWorkerError", "KilledWorker", "BrokenProcessPool"):
+            raise
+        raise WorkerLost(
+            f"a worker process died while running cells ({type(exc).__name__}: {' '.join(str(exc).split())[:200]}). "
+            f"{summary['ran']} finished cell(s) of this run are stored; the cells that were running are not. Run the "
+            "same campaign again to resume: only the missing cells run (a worker that dies again on the same cell "
+            "points at that cell's memory needs)."
+        ) from None
     finally:
         if bar is not None:
             bar.close()
@@ -284,7 +306,14 @@ def _run_dask(cells, data, scheduler, n_workers, torch_threads, record):
         cluster = LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True, dashboard_address=None)
         client, own_client = Client(cluster), True
     elif isinstance(scheduler, str):
-        client, own_client = Client(scheduler), True
+        try:
+            client, own_client = Client(scheduler, timeout=SCHEDULER_TIMEOUT), True
+        except (OSError, TimeoutError) as exc:
+            raise SchedulerUnreachable(
+                f"no dask scheduler answered at '{scheduler}' within {SCHEDULER_TIMEOUT:g} s ({type(exc).__name__}). "
+                "Nothing ran and nothing stored was changed. Check the address (tcp://HOST:PORT, as printed by "
+                "dask scheduler) and that the scheduler is running, or use --workers N for local processes."
+            ) from None
     elif isinstance(scheduler, Client):
         client = scheduler
     else:

@@ -203,6 +203,9 @@ class CampaignData:
     """Validated data of a campaign with its fixed test split and nested per-repeat permutations.
 
     Built by :func:`prepare`; it is what workers receive (it pickles compactly: arrays plus a few ints).
+    ``X`` may be a :class:`manireg.data.LazyTable` (a file on disk): it pickles as its path, and a worker
+    reads only the rows of its cells and the test rows (once per worker process), by index. The rows
+    are the same float64 values either way, so results do not depend on where X lives.
     """
 
     X: np.ndarray = field(repr=False)
@@ -237,8 +240,27 @@ class CampaignData:
         return None if self.bayes_proba is None else self.bayes_proba[self.test_idx]
 
     @property
+    def on_disk(self) -> bool:
+        """True when ``X`` is a table on disk read by rows."""
+        return hasattr(self.X, "rows") and hasattr(self.X, "chunks")
+
+    def take(self, rows):
+        """Rows of X by index, as float64 (read from the file when X is on disk)."""
+        return self.X.rows(rows) if self.on_disk else self.X[rows]
+
+    def __getstate__(self):
+        state = dict(self.__dict__)
+        state.pop("_X_test", None)  # the test rows are read again where they are used, never shipped
+        return state
+
+    @property
     def X_test(self):
-        return self.X[self.test_idx]
+        cached = self.__dict__.get("_X_test")
+        if cached is None:
+            cached = self.take(self.test_idx)
+            if self.on_disk:
+                self.__dict__["_X_test"] = cached  # one read per worker process
+        return cached
 
     @property
     def y_test(self):
@@ -265,7 +287,7 @@ class CampaignData:
     def cell_split(self, cell):
         """``(X_fit, y_fit, X_val, y_val)`` of a cell."""
         fit, val = self.cell_rows(cell)
-        return self.X[fit], self.y[fit], self.X[val], self.y[val]
+        return self.take(fit), self.y[fit], self.take(val), self.y[val]
 
     def metadata(self, spec: CampaignSpec | None = None) -> dict:
         import sys
@@ -386,10 +408,18 @@ def prepare(spec: CampaignSpec) -> CampaignData:
         s = float(sample.smoothness) if s is None else s
         d_source = "generator" if spec.dimension is None else d_source
     else:
-        if spec.X is None or spec.y is None:
+        lazy_target = spec.y is None and hasattr(spec.X, "rows") and getattr(spec.X, "target_name", None) is not None
+        if spec.X is None or (spec.y is None and not lazy_target):
             raise ValueError(f"{owner}: no data; pass X and y (arrays), or generator={{'manifold': ...}}.")
-        X, y, f_clean = spec.X, spec.y, spec.f_clean
-    X = check_points(X, owner=owner, min_samples=2 * MIN_SIZE)
+        X, y, f_clean = spec.X, (spec.X.target() if lazy_target else spec.y), spec.f_clean
+    on_disk = hasattr(X, "rows") and hasattr(X, "chunks")
+    if on_disk:
+        if X.shape[0] < 2 * MIN_SIZE:
+            raise ValueError(f"{owner}: X has {X.shape[0]} row(s); at least {2 * MIN_SIZE} are needed. Pass more samples.")
+        x_print = X.fingerprint()  # one pass over the file: also the NaN/inf check, chunk by chunk
+    else:
+        X = check_points(X, owner=owner, min_samples=2 * MIN_SIZE)
+        x_print = None
     classes = None
     if task == "classify":
         from manireg.data.labels import encode_labels
@@ -453,7 +483,12 @@ def prepare(spec: CampaignSpec) -> CampaignData:
             f"the 'learners' parameter of {owner} has duplicate name(s) {dup}; each learner needs its own name, "
             "e.g. LearnerSpec('net', name='net-lr1e-3', params={'learning_rate': 1e-3})."
         )
-    if d is None:
+    if d is None and on_disk:
+        from manireg.geometry.ondisk import describe_geometry_on_disk
+
+        d = float(describe_geometry_on_disk(X, charts=False, seed=seed).consensus)
+        d_source = "estimated (query subsample of the file)"
+    elif d is None:
         from manireg.geometry.dimension import estimate_dimension
 
         d = float(estimate_dimension(X).consensus)
@@ -463,8 +498,9 @@ def prepare(spec: CampaignSpec) -> CampaignData:
     name = spec.name
     if not isinstance(name, str) or not name:
         raise ValueError(f"the 'name' parameter of {owner} must be a non-empty str; got {name!r}.")
-    parts = [X, y] + ([] if f_clean is None else [f_clean]) + ([] if bayes is None else [bayes])
-    fingerprint = hashlib.sha256("".join(data_fingerprint(a) for a in parts).encode()).hexdigest()[:32]
+    parts = [y] + ([] if f_clean is None else [f_clean]) + ([] if bayes is None else [bayes])
+    x_print = x_print or data_fingerprint(X)  # equal for the same values on disk and in memory
+    fingerprint = hashlib.sha256((x_print + "".join(data_fingerprint(a) for a in parts)).encode()).hexdigest()[:32]
     perm = np.random.default_rng(_seed_int(seed, 0)).permutation(N)
     return CampaignData(X=X, y=y, f_clean=f_clean, test_idx=np.sort(perm[:test_size]), pool_idx=perm[test_size:],
                      sizes=sizes, repeats=repeats, learners=learners, seed=seed, validation_fraction=validation_fraction,

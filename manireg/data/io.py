@@ -12,7 +12,7 @@ from .._validation import DataValidationError, warn
 
 __all__ = ["Table", "load_table", "SUPPORTED_FORMATS"]
 
-SUPPORTED_FORMATS = (".csv", ".parquet", ".pq", ".npz", ".npy")
+SUPPORTED_FORMATS = (".csv", ".parquet", ".pq", ".npz", ".npy", ".zarr")
 
 
 @dataclass
@@ -38,7 +38,9 @@ def load_table(path, target: str | int | None = None, *, features=None, drop=Non
     ----------
     path : str or os.PathLike
         ``.csv`` (header row required), ``.parquet``/``.pq``, ``.npz`` (arrays ``X`` and optionally ``y``,
-        or named 1-D arrays used as columns) or ``.npy`` (a 2-D array; columns are ``c0, c1, ...``).
+        or named 1-D arrays used as columns), ``.npy`` (a 2-D array; columns are ``c0, c1, ...``) or ``.zarr``
+        (a group with ``X`` and ``y``; needs the zarr package). For files larger than memory use
+        :func:`manireg.data.open_table`, which reads rows on demand.
     target : column name (or integer position for ``.npy``), optional
         The regression target; ``None`` loads features only.
     features : list of column names, optional
@@ -56,20 +58,14 @@ def load_table(path, target: str | int | None = None, *, features=None, drop=Non
         names it. A misspelt column name gets the closest existing names suggested. Constant columns only
         warn.
     """
+    from .lazy import check_data_path, open_table
+
     p = os.fspath(path)
-    if not os.path.exists(p):
-        raise DataValidationError(f"no such file: '{p}'. Check the path (relative paths start at the current folder).")
-    if os.path.isdir(p):
-        raise DataValidationError(f"'{p}' is a folder, not a data file. Pass a .csv, .parquet, .npz or .npy file.")
-    ext = os.path.splitext(p)[1].lower()
-    if ext not in SUPPORTED_FORMATS:
-        raise DataValidationError(
-            f"unknown data format '{ext or '(none)'}' for '{p}'; supported: {', '.join(SUPPORTED_FORMATS)}. "
-            "Save the table in one of those formats."
-        )
-    if os.path.getsize(p) == 0:
-        raise DataValidationError(f"'{p}' is empty (0 bytes). Write the data into it first.")
-    if ext in (".csv", ".parquet", ".pq"):
+    ext = check_data_path(p, SUPPORTED_FORMATS)
+    if ext == ".zarr":
+        lazy = open_table(p, target, features=features, drop=drop)
+        names, X, y, tname = lazy.feature_names, lazy.to_array(), lazy.target(), lazy.target_name
+    elif ext in (".csv", ".parquet", ".pq"):
         frame = _read_frame(p, ext)
         names, X, y, tname = _split_frame(frame, target, features, p, drop)
     elif ext == ".npz":

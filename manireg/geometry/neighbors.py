@@ -10,6 +10,15 @@ No estimator in manireg computes neighbours its own way: they call :func:`kneigh
 * caches the last few graphs by a fingerprint of the data, so estimators fitted one after another on the
   same array share one query (the cost of a dimension report is one neighbour query, not one per
   estimator).
+
+An approximate graph carries its measured recall: the share of the true k nearest neighbours it found,
+measured against an exact search for a seeded subsample of ``RECALL_QUERIES`` points
+(:func:`measure_recall`), so every estimate built on it can say how good its neighbours were.
+
+Data larger than memory (a :class:`manireg.data.LazyTable`) goes through :func:`stream_kneighbors`: exact
+neighbours of a subsample of query rows, found by one pass over the file in blocks (memory bounded by
+the block size and the number of queries, not by the file). An all-points graph of such data is what the
+approximate index is for.
 """
 
 from __future__ import annotations
@@ -23,8 +32,14 @@ import numpy as np
 from .._results import ResultMixin
 from .._validation import DataValidationError, check_choice, check_int, check_points, warn
 
-__all__ = ["APPROXIMATE_ABOVE", "NeighborGraph", "collapse_duplicates", "kneighbors", "data_fingerprint", "clear_cache",
-           "index_seed"]
+__all__ = ["APPROXIMATE_ABOVE", "RECALL_QUERIES", "NeighborGraph", "collapse_duplicates", "kneighbors", "data_fingerprint",
+           "clear_cache", "measure_recall", "stream_kneighbors", "NEIGHBOR_METHODS", "index_seed"]
+
+#: Choices of ``method`` in :func:`kneighbors`.
+NEIGHBOR_METHODS = ("auto", "exact", "approximate")
+
+#: Points of the seeded subsample on which an approximate graph's recall is measured.
+RECALL_QUERIES = 200
 
 #: Above this many (distinct) points ``method="auto"`` switches from exact search to pynndescent.
 #: Exact brute-force search costs O(n^2 D); at 60,000 points in D = 64 it is a few seconds on 2 cores,
@@ -45,7 +60,11 @@ class NeighborGraph(ResultMixin):
     distances, indices : (m, k) arrays; ``indices`` refer to rows of ``points``.
     inverse : (n,) array mapping each original row to its row in ``points``.
     n_duplicates : number of original rows that were exact copies of an earlier row.
-    method : "exact" or "approximate".
+    method : "exact", "approximate" or "streamed exact" (queries of a file; then ``points`` are the query
+        rows, ``indices`` are row numbers of the file and ``inverse`` is ``arange(n_queries)``).
+    recall : share of the exact k nearest neighbours the graph holds, measured on ``recall_queries``
+        points (1.0 for exact search, which is not measured).
+    recall_queries : how many points the recall was measured on (0: not measured).
     """
 
     points: np.ndarray = field(repr=False)
@@ -54,6 +73,8 @@ class NeighborGraph(ResultMixin):
     inverse: np.ndarray = field(repr=False)
     n_duplicates: int
     method: str
+    recall: float = 1.0
+    recall_queries: int = 0
     _skip_in_dict = ("points", "distances", "indices", "inverse")
 
     @property
@@ -68,7 +89,8 @@ class NeighborGraph(ResultMixin):
         """The same graph restricted to the first ``k`` neighbours."""
         if k > self.k:
             raise ValueError(f"this graph holds {self.k} neighbours; {k} were asked for.")
-        return NeighborGraph(self.points, self.distances[:, :k], self.indices[:, :k], self.inverse, self.n_duplicates, self.method)
+        return NeighborGraph(self.points, self.distances[:, :k], self.indices[:, :k], self.inverse, self.n_duplicates,
+                             self.method, self.recall, self.recall_queries)
 
 
 def data_fingerprint(X: np.ndarray) -> str:
@@ -116,6 +138,7 @@ def kneighbors(
     random_state: int = 0,
     owner: str = "kneighbors",
     warn_duplicates: bool = True,
+    recall_queries: int = RECALL_QUERIES,
 ) -> NeighborGraph:
     """k nearest neighbours (self excluded) of every distinct point of ``X``.
 
@@ -132,13 +155,16 @@ def kneighbors(
         Name used in error messages (the estimator that asked).
     warn_duplicates : bool
         Warn when exact duplicates were collapsed.
+    recall_queries : int
+        For an approximate graph: the seeded subsample on which its recall is measured against exact
+        search (:func:`measure_recall`; costs ``recall_queries`` exact queries); 0 skips it.
 
     Returns
     -------
     NeighborGraph
     """
     k = check_int(k, "k", owner=owner, low=1)
-    check_choice(method, "method", owner=owner, choices=("auto", "exact", "approximate"))
+    check_choice(method, "method", owner=owner, choices=NEIGHBOR_METHODS)
     X = check_points(X, owner=owner, min_samples=2)
     key = (data_fingerprint(X), method, random_state)
     cached = _CACHE.get(key)
@@ -167,11 +193,12 @@ def kneighbors(
     use_approx = method == "approximate" or (method == "auto" and m > APPROXIMATE_ABOVE)
     if use_approx:
         dist, idx = _approximate(points, k, random_state)
-        kind = "approximate"
+        graph = NeighborGraph(points, dist, idx, inverse, int(n_dup), "approximate", float("nan"), 0)
+        if recall_queries:
+            graph.recall, graph.recall_queries = measure_recall(graph, recall_queries, seed=random_state)
     else:
         dist, idx = _exact(points, k)
-        kind = "exact"
-    graph = NeighborGraph(points, dist, idx, inverse, int(n_dup), kind)
+        graph = NeighborGraph(points, dist, idx, inverse, int(n_dup), "exact")
     _CACHE[key] = graph
     _CACHE.move_to_end(key)
     while len(_CACHE) > _CACHE_SIZE:
@@ -206,3 +233,122 @@ def _drop_self(dist: np.ndarray, idx: np.ndarray, k: int):
     dist = dist[keep].reshape(n, -1)[:, :k]
     idx = idx[keep].reshape(n, -1)[:, :k]
     return np.ascontiguousarray(dist), np.ascontiguousarray(idx)
+
+
+def measure_recall(graph: NeighborGraph, n_queries: int = RECALL_QUERIES, *, seed: int = 0):
+    """``(recall, n_queries)``: the share of the exact k nearest neighbours that ``graph`` lists, over a seeded
+    subsample of its points (exact search by brute force for those points only: O(n_queries n D)).
+
+    Recall at k is the usual measure of approximate nearest-neighbour search (common practice, e.g. the
+    ann-benchmarks project): a listed neighbour at or inside the exact k-th distance counts as found.
+    """
+    m = graph.n_points
+    q = min(int(n_queries), m)
+    rows = np.sort(np.random.default_rng(seed).choice(m, q, replace=False))
+    exact_d, exact_i = _exact_queries(graph.points, rows, graph.k)
+    # a listed neighbour at or inside the exact k-th distance counts as found, so ties are not misses
+    # (distances of the approximate index are float32: relative tolerance 1e-5)
+    kth = exact_d[:, -1:] * (1 + 1e-5) + 1e-12
+    found = int(np.minimum(np.sum(graph.distances[rows] <= kth, axis=1), graph.k).sum())
+    return found / (q * graph.k), q
+
+
+def _exact_queries(points: np.ndarray, rows: np.ndarray, k: int):
+    from sklearn.neighbors import NearestNeighbors
+
+    nn = NearestNeighbors(n_neighbors=k + 1, algorithm="brute").fit(points)
+    dist, idx = nn.kneighbors(points[rows])
+    # drop each query itself
+    keep = idx != rows[:, None]
+    over = keep.sum(axis=1) > k
+    keep[over, -1] = False
+    return dist[keep].reshape(len(rows), -1)[:, :k], idx[keep].reshape(len(rows), -1)[:, :k]
+
+
+def stream_kneighbors(table, query_rows, k: int, *, chunk_rows: int | None = None, margin: int = 8,
+                      max_block_bytes: float = 64e6, owner: str = "stream_kneighbors") -> NeighborGraph:
+    """Exact k nearest neighbours of some rows of a table on disk, found in one pass over the file.
+
+    Each block of the file (:meth:`LazyTable.chunks`) is compared with all queries at once (one matrix
+    product in the file's precision) and a running list of ``k + margin`` candidates per query is kept;
+    at the end the candidates' distances are recomputed in float64 from the rows themselves and the k
+    nearest are kept. The query row itself and exact duplicates of it (distance 0) are left out and
+    counted in ``n_duplicates``. Memory: one block, the queries and a (queries x block) distance slab of at
+    most ``max_block_bytes``; it does not grow with the file.
+
+    Parameters
+    ----------
+    table : LazyTable or array (n, D)
+    query_rows : array of int
+        Rows whose neighbours are wanted (distinct).
+    k : int >= 1
+    chunk_rows : int, optional
+        Block size of the pass (default: the table's).
+    margin : int
+        Extra candidates kept per query so that float32 rounding in the pass cannot drop a true neighbour.
+
+    Returns
+    -------
+    NeighborGraph
+        ``method="streamed exact"``; ``points`` are the query rows, ``indices`` rows of the file.
+    """
+    k = check_int(k, "k", owner=owner, low=1)
+    q_rows = np.unique(np.asarray(query_rows, dtype=np.int64))
+    if q_rows.size != np.asarray(query_rows).size:
+        raise ValueError(f"{owner}: query_rows must be distinct row numbers.")
+    q_rows = np.asarray(query_rows, dtype=np.int64)
+    get_rows = table.rows if hasattr(table, "rows") else (lambda r: np.asarray(table, dtype=np.float64)[r])
+    n = table.shape[0]
+    if n <= k + 1:
+        raise DataValidationError(f"{owner}: {k} neighbours were asked for but the table has only {n} rows.")
+    Q = get_rows(q_rows)
+    m = len(Q)
+    fdt = np.float32 if getattr(table, "dtype", np.float64) == np.float32 else np.float64
+    Qf = Q.astype(fdt)
+    qn = np.einsum("ij,ij->i", Qf, Qf)
+    K = min(k + margin, n - 1)
+    best_d = np.full((m, K), np.inf, dtype=fdt)
+    best_i = np.full((m, K), -1, dtype=np.int64)
+    if hasattr(table, "chunks"):
+        blocks = table.chunks(chunk_rows)
+    else:
+        arr = np.asarray(table)
+        step = int(chunk_rows or max(256, int(64e6 // (8 * arr.shape[1]))))
+        blocks = ((a, arr[a:a + step]) for a in range(0, n, step))
+    sub = max(64, int(max_block_bytes // (np.dtype(fdt).itemsize * max(m, 1))))
+    for start, block in blocks:
+        B = np.asarray(block, dtype=fdt)
+        bn = np.einsum("ij,ij->i", B, B)
+        for a in range(0, len(B), sub):
+            Bs = B[a:a + sub]
+            d2 = qn[:, None] + bn[None, a:a + sub] - 2.0 * (Qf @ Bs.T)
+            ids = np.arange(start + a, start + a + len(Bs))
+            d2[q_rows[:, None] == ids[None, :]] = np.inf
+            cat_d = np.concatenate([best_d, d2], axis=1)
+            cat_i = np.concatenate([best_i, np.broadcast_to(ids, d2.shape)], axis=1)
+            part = np.argpartition(cat_d, K - 1, axis=1)[:, :K]
+            best_d = np.take_along_axis(cat_d, part, axis=1)
+            best_i = np.take_along_axis(cat_i, part, axis=1)
+    # exact float64 distances of the candidates, a batch of queries at a time
+    dist = np.empty((m, k))
+    idx = np.empty((m, k), dtype=np.int64)
+    n_dup = 0
+    batch = max(1, int(max_block_bytes // (8 * K * Q.shape[1])))
+    for a in range(0, m, batch):
+        cand = best_i[a:a + batch]
+        uniq, inv = np.unique(cand, return_inverse=True)
+        C = get_rows(uniq)[inv.reshape(cand.shape)]
+        d = np.sqrt(np.sum((C - Q[a:a + batch, None, :]) ** 2, axis=2))
+        zero = d == 0
+        n_dup += int(zero.any(axis=1).sum())
+        d[zero] = np.inf
+        order = np.argsort(d, axis=1, kind="stable")[:, :k]
+        dd = np.take_along_axis(d, order, axis=1)
+        if not np.all(np.isfinite(dd)):
+            raise DataValidationError(
+                f"{owner}: some query rows have fewer than {k} distinct neighbours (exact duplicates of the query "
+                "are left out). Lower k or remove duplicated rows."
+            )
+        dist[a:a + batch] = dd
+        idx[a:a + batch] = np.take_along_axis(cand, order, axis=1)
+    return NeighborGraph(Q, dist, idx, np.arange(m), n_dup, "streamed exact")

@@ -1,0 +1,186 @@
+"""Scale benchmark: geometry read-out of files on disk, approximate vs exact neighbours, a campaign on a dask
+LocalCluster. Prints time, peak memory (psutil) and the load average beside each measurement.
+
+    python tests/benchmarks/bench_scale.py geometry --rows 100000 300000 1000000 --dim 256 --dir DIR
+    python tests/benchmarks/bench_scale.py ann --rows 100000 --dim 256 --dir DIR
+    python tests/benchmarks/bench_scale.py campaign --rows 100000 --dim 256 --sizes 1000 4000 16000 --dir DIR
+
+Files are written once per (rows, dim) into DIR with manireg.data.write_synthetic (graph manifold, d = 4,
+float32). Each measurement runs in a fresh process so its peak resident memory is its own.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import subprocess
+import sys
+import time
+
+
+def _path(d, rows, dim):
+    return os.path.join(d, f"g{rows}x{dim}.npy")
+
+
+def ensure(d, rows, dim):
+    from manireg.data import write_synthetic
+
+    p = _path(d, rows, dim)
+    if not os.path.exists(p):
+        write_synthetic(p, "graph_manifold", rows, d=4, ambient_dim=dim, chunk_rows=16384, seed=0)
+    return p
+
+
+class Peak:
+    """Peak resident memory of this process: psutil samples every 20 ms and the kernel's high-water mark."""
+
+    def __init__(self):
+        import threading
+
+        import psutil
+
+        self.proc, self.peak, self.stop = psutil.Process(), 0, False
+        self.t = threading.Thread(target=self._run, daemon=True)
+        self.t.start()
+
+    def _run(self):
+        while not self.stop:
+            self.peak = max(self.peak, self.proc.memory_info().rss)
+            time.sleep(0.02)
+
+    def done(self):
+        import resource
+
+        self.stop = True
+        self.t.join()
+        return max(self.peak, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024)
+
+
+def one_geometry(path, queries, landmarks):
+    from manireg.data import open_table
+    from manireg.geometry.ondisk import describe_geometry_on_disk
+
+    peak = Peak()
+    t0 = time.perf_counter()
+    g = describe_geometry_on_disk(open_table(path, -1), n_queries=queries, n_landmarks=landmarks, seed=0)
+    sec = time.perf_counter() - t0
+    return {"seconds": sec, "peak_mb": peak.done() / 2**20, "mle": g.estimates["mle"], "twonn": g.estimates["twonn"],
+            "steps": g.seconds, "charts": g.atlas.n_charts, "reach": None if g.reach is None else g.reach.reach}
+
+
+def one_ann(path, k, queries):
+    import numpy as np
+
+    from manireg.data import open_table
+    from manireg.geometry.neighbors import _approximate, stream_kneighbors
+
+    X = open_table(path, -1).to_array().astype(np.float32)
+    # warm the numba compilation on a small array first: it is paid once per process, not per index
+    t0 = time.perf_counter()
+    _approximate(np.ascontiguousarray(X[:2000]), k, 0)
+    compile_s = time.perf_counter() - t0
+    peak = Peak()
+    t0 = time.perf_counter()
+    d_a, i_a = _approximate(X, k, 0)
+    ann_s = time.perf_counter() - t0
+    q = np.sort(np.random.default_rng(0).choice(len(X), queries, replace=False))
+    t0 = time.perf_counter()
+    g = stream_kneighbors(X.astype(np.float64), q, k)
+    exact_q_s = time.perf_counter() - t0
+    kth = g.distances[:, -1:] * (1 + 1e-5)
+    recall = float(np.minimum((d_a[q] <= kth).sum(1), k).sum() / (queries * k))
+    exact_all = exact_q_s * len(X) / queries  # exact all-points search extrapolated from the query pass
+    return {"rows": len(X), "k": k, "compile_s": compile_s, "ann_s": ann_s, "exact_queries": queries,
+            "exact_query_s": exact_q_s, "exact_all_s_extrapolated": exact_all, "speed_ratio": exact_all / ann_s,
+            "recall": recall, "peak_mb": peak.done() / 2**20}
+
+
+def one_campaign(path, sizes, repeats, workers):
+    import psutil
+    from distributed import Client, LocalCluster
+
+    from manireg.curves import LearnerSpec
+    from manireg.curves.campaign import Campaign
+    from manireg.data import open_table
+
+    store = path + f".campaign-{os.getpid()}.sqlite"
+    cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None)
+    client = Client(cluster)
+    worker_pids = list(client.run(os.getpid).values())
+    peaks = {p: 0 for p in worker_pids}
+    sched = {"peak": 0}
+    import threading
+
+    stop = []
+
+    def watch():
+        me = psutil.Process()
+        while not stop:
+            for p in worker_pids:
+                try:
+                    peaks[p] = max(peaks[p], psutil.Process(p).memory_info().rss)
+                except psutil.Error:
+                    pass
+            sched["peak"] = max(sched["peak"], me.memory_info().rss)
+            time.sleep(0.05)
+
+    th = threading.Thread(target=watch, daemon=True)
+    th.start()
+    table = open_table(path, -1)
+    net = LearnerSpec("net", params={"max_steps": 300, "eval_every": 50, "patience_steps": 200, "min_steps": 50})
+    camp = Campaign(X=table, y=None, sizes=sizes, repeats=repeats, learners=[net, LearnerSpec("knn")], dimension=4.0,
+                    smoothness=1.0, seed=0, name="bench", store=store, test_size=2000)
+    t0 = time.perf_counter()
+    res = camp.run(executor="dask", scheduler=client, progress=False)
+    sec = time.perf_counter() - t0
+    stop.append(1)
+    th.join()
+    rows = res.rows
+    per = rows.groupby(["learner", "n"])["seconds"].mean().round(2).to_dict()
+    client.close()
+    cluster.close()
+    os.remove(store)
+    return {"cells": len(rows), "seconds": sec, "cell_seconds": {f"{l}@{n}": v for (l, n), v in per.items()},
+            "worker_peak_mb": [v / 2**20 for v in peaks.values()], "client_process_peak_mb": sched["peak"] / 2**20,
+            "note": "the scheduler runs in the client process of a LocalCluster; its peak includes the client"}
+
+
+def _child(kind, kwargs):
+    """Run one measurement in a fresh process; return its JSON."""
+    code = f"import json,sys; sys.path.insert(0, {os.path.dirname(__file__)!r}); import bench_scale as b; " \
+           f"print('RESULT' + json.dumps(b.one_{kind}(**{kwargs!r})))"
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    for line in out.stdout.splitlines():
+        if line.startswith("RESULT"):
+            return json.loads(line[6:])
+    raise RuntimeError(out.stderr[-2000:])
+
+
+def main():
+    ap = argparse.ArgumentParser()
+    ap.add_argument("what", choices=["geometry", "ann", "campaign"])
+    ap.add_argument("--rows", type=int, nargs="+", default=[100_000])
+    ap.add_argument("--dim", type=int, default=256)
+    ap.add_argument("--dir", default=os.environ.get("TMPDIR", "/tmp"))
+    ap.add_argument("--queries", type=int, default=2000)
+    ap.add_argument("--landmarks", type=int, default=4000)
+    ap.add_argument("--sizes", type=int, nargs="+", default=[1000, 4000, 16000])
+    ap.add_argument("--repeats", type=int, default=2)
+    ap.add_argument("--workers", type=int, default=2)
+    a = ap.parse_args()
+    for rows in a.rows:
+        p = ensure(a.dir, rows, a.dim)
+        load = os.getloadavg()[0]
+        if a.what == "geometry":
+            r = _child("geometry", {"path": p, "queries": a.queries, "landmarks": a.landmarks})
+        elif a.what == "ann":
+            r = _child("ann", {"path": p, "k": 20, "queries": 500})
+        else:
+            r = _child("campaign", {"path": p, "sizes": a.sizes, "repeats": a.repeats, "workers": a.workers})
+        r.update(rows=rows, dim=a.dim, load_before=round(load, 2), load_after=round(os.getloadavg()[0], 2))
+        print(json.dumps(r), flush=True)
+
+
+if __name__ == "__main__":
+    main()
