@@ -395,7 +395,7 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
     if sizing is not None:
         sec = ReportSection("Network sizing")
         sec.paragraphs.append(
-            f"Rule for d = {sizing.d:g}, s = {sizing.s:g}, D = {getattr(sizing, 'ambient_dim', getattr(sizing, 'input_dim', None))}: "
+            f"Rule for d = {sizing.d:g}, s = {sizing.s:g}, D = {sizing.ambient_dim}: "
             "depth ~ log n, width ~ n^(d/(2s+d)), "
             "nonzero weights ~ n^(d/(2s+d)) log n; constants and bounds are those of SizingConstants.")
         sec.tables.append(("", sizing.to_frame()))

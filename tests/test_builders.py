@@ -21,7 +21,7 @@ from manireg.theory import size_network
 
 @pytest.fixture
 def spec():
-    return size_network(1000, 2, 1, input_dim=8, output_bound=0.5)
+    return size_network(1000, 2, 1, ambient_dim=8, output_bound=0.5)
 
 
 def test_named_layers_and_count(spec):
@@ -86,7 +86,7 @@ def test_pruning(spec):
 @pytest.mark.parametrize("shape", [(64,), (2, 32), (1, 8, 8), (3, 4, 4)])
 def test_conv_network(shape):
     D = int(np.prod(shape))
-    spec = size_network(2000, 2, 1, input_dim=D, output_bound=1.0)
+    spec = size_network(2000, 2, 1, ambient_dim=D, output_bound=1.0)
     state = torch.random.get_rng_state()
     net = build_conv_network(spec, shape, seed=1)
     assert torch.equal(state, torch.random.get_rng_state())

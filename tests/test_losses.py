@@ -83,7 +83,7 @@ def test_cross_entropy_and_accuracy_equal_sklearn():
     # the trainer's reported cross-entropy is the same number.
     X, y = blobs(500, seed=0)
     Xv, yv = blobs(200, seed=1)
-    trainer = BatchedTrainer(size_network(400, 2, 1, input_dim=D), config(max_steps=80, min_steps=0),
+    trainer = BatchedTrainer(size_network(400, 2, 1, ambient_dim=D), config(max_steps=80, min_steps=0),
                              loss="cross_entropy", n_outputs=K)
     (res,) = trainer.fit([ReplicaTask(X, y, Xv, yv, seed=0)])
     P = trainer.predict(Xv, replica=0)
@@ -112,7 +112,7 @@ def test_logistic_fit_matches_sklearn_on_separable_data():
     X, y = draw(300)
     Xt, yt = draw(400)
     ref = LogisticRegression(C=np.inf, max_iter=2000).fit(X, y)  # C=inf: no penalty
-    trainer = BatchedTrainer(size_network(300, 1, 1, input_dim=D), config(max_steps=300), loss="cross_entropy",
+    trainer = BatchedTrainer(size_network(300, 1, 1, ambient_dim=D), config(max_steps=300), loss="cross_entropy",
                              n_outputs=2)
     trainer.fit([ReplicaTask(X, y, seed=s) for s in range(3)])
     ref_acc = accuracy_score(yt, ref.predict(Xt))
@@ -125,7 +125,7 @@ def test_replica_numbers_do_not_depend_on_the_stack(loss):
     # As for regression (tests/test_training.py): bit-for-bit the same numbers whichever replicas share a
     # stack; four together against 1 + 3 (a stack of one takes other kernels) and against 2 + 2; full
     # batch (n = 200) and minibatch (n = 600) replicas.
-    spec = size_network(600, 1, 1, input_dim=D)
+    spec = size_network(600, 1, 1, ambient_dim=D)
     tasks = []
     for i, n in enumerate([600, 600, 600, 600, 200, 200]):
         X, y = blobs(n + 100, seed=10 + i)
@@ -154,7 +154,7 @@ def test_policy_training_raises_the_value():
     # uniform policy's 1/K (the Bayes policy of these blobs earns about 0.9).
     X, y = blobs(700, seed=4)
     G = np.eye(K)[y]
-    trainer = BatchedTrainer(size_network(500, 2, 1, input_dim=D), config(max_steps=200), loss="policy", n_outputs=K)
+    trainer = BatchedTrainer(size_network(500, 2, 1, ambient_dim=D), config(max_steps=200), loss="policy", n_outputs=K)
     (res,) = trainer.fit([ReplicaTask(X[:500], G[:500], X[500:], G[500:], seed=0)])
     P = trainer.predict(X[500:], replica=0)
     value = float((P * G[500:]).sum(axis=1).mean())
@@ -164,7 +164,7 @@ def test_policy_training_raises_the_value():
 
 def test_bad_task_arguments():
     X, y = blobs(50, seed=0)
-    spec = size_network(50, 1, 1, input_dim=D)
+    spec = size_network(50, 1, 1, ambient_dim=D)
     with pytest.raises(ValueError, match="one of 'mse'"):
         BatchedTrainer(spec, loss="hinge")
     with pytest.raises(ValueError, match=">= 2 for loss='cross_entropy'"):

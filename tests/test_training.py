@@ -41,7 +41,7 @@ def make_tasks(ns, seeds, n_val=200):
 
 def test_batched_equals_one_at_a_time():
     # Mixed n: two full-batch replicas (padded together) and two minibatch replicas.
-    spec = size_network(600, 1, 1, input_dim=D, output_bound=2.0)
+    spec = size_network(600, 1, 1, ambient_dim=D, output_bound=2.0)
     cfg = config(max_steps=300, min_steps=0, patience_steps=100, eval_every=20, full_batch_threshold=256,
                       batch_size=64)
     tasks = make_tasks([150, 250, 600, 900], seeds=[0, 1, 2, 3])
@@ -62,7 +62,7 @@ def test_batched_equals_one_at_a_time():
 
 
 def test_seed_determinism_and_module_export():
-    spec = size_network(300, 1, 1, input_dim=D)
+    spec = size_network(300, 1, 1, ambient_dim=D)
     cfg = config(max_steps=100)
     tasks = make_tasks([300], seeds=[7])
     a, b = BatchedTrainer(spec, cfg), BatchedTrainer(spec, cfg)
@@ -83,8 +83,8 @@ def test_not_worse_than_sklearn_on_circle():
     n = 1000
     X, y, _ = circle_data(n, seed=1)
     Xt, _, ft = circle_data(2000, seed=2, noise=0.0)
-    spec = size_network(int(0.8 * n), 1, 1, input_dim=D)
-    ours = NetworkRegressor(d=1, s=1, max_steps=1500, n_threads=1, random_state=0).fit(X, y)
+    spec = size_network(int(0.8 * n), 1, 1, ambient_dim=D)
+    ours = NetworkRegressor(dimension=1, smoothness=1, max_steps=1500, n_threads=1, random_state=0).fit(X, y)
     mse_ours = float(np.mean((ours.predict(Xt) - ft) ** 2))
     skl = make_pipeline(
         StandardScaler(),
@@ -109,7 +109,7 @@ def test_small_n_rough_target_does_not_collapse():
     for s in range(4):
         X, y = rough(256 + 64, seed=20 + s)
         tasks.append(ReplicaTask(X[:256], y[:256], X[256:], y[256:], seed=s))
-    spec = size_network(256, 1, 0.5, input_dim=D)
+    spec = size_network(256, 1, 0.5, ambient_dim=D)
     res = BatchedTrainer(spec, config(max_steps=800)).fit(tasks)
     for r, task in zip(res, tasks):
         mean_mse = float(np.mean((task.y_val - task.y_train.mean()) ** 2))
@@ -118,7 +118,7 @@ def test_small_n_rough_target_does_not_collapse():
 
 
 def test_projection_and_pruning_in_trainer():
-    spec = size_network(500, 1, 1, input_dim=D, output_bound=1.0).replace(weight_bound=0.3, nonzero_budget=200)
+    spec = size_network(500, 1, 1, ambient_dim=D, output_bound=1.0).replace(weight_bound=0.3, nonzero_budget=200)
     cfg = config(max_steps=200, min_steps=0, patience_steps=50, project_weights=True, prune=True, prune_at=0.5)
     trainer = BatchedTrainer(spec, cfg)
     res = trainer.fit(make_tasks([500, 300], seeds=[0, 1]))
@@ -133,7 +133,7 @@ def test_projection_and_pruning_in_trainer():
 
 
 def test_stop_reasons_and_late_best():
-    spec = size_network(300, 1, 1, input_dim=D)
+    spec = size_network(300, 1, 1, ambient_dim=D)
     (r,) = BatchedTrainer(spec, config(max_steps=60, eval_every=10)).fit(make_tasks([300], [0]))
     assert r.stop_reason == "step_cap" and r.steps == 60
     assert r.late_best == (r.best_step >= 48)
@@ -160,7 +160,7 @@ def test_schedule():
 def test_regressor_sklearn_contract():
     from sklearn.base import clone
 
-    reg = NetworkRegressor(d=1, max_steps=50, n_threads=1, random_state=0)
+    reg = NetworkRegressor(dimension=1, max_steps=50, n_threads=1, random_state=0)
     assert clone(reg).get_params()["max_steps"] == 50
     X, y, _ = circle_data(200, seed=0)
     reg.fit(X, y)
@@ -170,22 +170,22 @@ def test_regressor_sklearn_contract():
 
 
 def test_bad_inputs():
-    spec = size_network(300, 1, 1, input_dim=D)
+    spec = size_network(300, 1, 1, ambient_dim=D)
     X, y, _ = circle_data(300, seed=0)
     Xn = X.copy()
     Xn[3, 2] = np.nan
     with pytest.raises(ValueError, match=r"tasks\[0\]\.X_train has 1 non-finite value"):
         BatchedTrainer(spec).fit([ReplicaTask(Xn, y, seed=0)])
     with pytest.raises(DataValidationError, match=r"NetworkRegressor: X has 1 non-finite value"):
-        NetworkRegressor(d=1).fit(Xn, y)
+        NetworkRegressor(dimension=1).fit(Xn, y)
     with pytest.raises(ValueError, match=r"X_train has 3 columns but spec.input_dim is 10"):
         BatchedTrainer(spec).fit([ReplicaTask(X[:, :3], y, seed=0)])
-    with pytest.raises(ValueError, match=r"'d' parameter of size_network must be <= input_dim=10"):
-        NetworkRegressor(d=20).fit(X, y)
+    with pytest.raises(ValueError, match=r"'d' parameter of size_network must be <= ambient_dim=10"):
+        NetworkRegressor(dimension=20).fit(X, y)
     with pytest.raises(ValueError, match=r"'s' parameter of regression_exponent must be a finite real > 0"):
-        NetworkRegressor(d=1, s=0).fit(X, y)
+        NetworkRegressor(dimension=1, smoothness=0).fit(X, y)
     with pytest.raises(ValueError, match=r"NetworkRegressor: X has 2 row\(s\); at least 3 are needed"):
-        NetworkRegressor(d=1).fit(X[:2], y[:2])
+        NetworkRegressor(dimension=1).fit(X[:2], y[:2])
     with pytest.raises(ValueError, match=r"'patience_steps' parameter of TrainConfig must be an int >= 1"):
         config(patience_steps=0)
     with pytest.raises(ValueError, match=r"'schedule' parameter of TrainConfig must be one of"):
@@ -242,7 +242,7 @@ def test_replica_numbers_do_not_depend_on_the_stack():
     # Work units may be split over workers (manireg.curves.execution.make_units), which is only sound if a
     # replica's numbers are bit-for-bit the same whichever replicas share its stack. Minibatch replicas
     # of one n, both arithmetics, four together against two plus two.
-    spec = size_network(600, 1, 1, input_dim=D)
+    spec = size_network(600, 1, 1, ambient_dim=D)
     tasks = make_tasks([600] * 4, seeds=[0, 1, 2, 3])
     for precision in ("float32", "bfloat16"):
         cfg = config(max_steps=60, min_steps=0, patience_steps=20, eval_every=10, batch_size=64, precision=precision)
@@ -284,7 +284,7 @@ def test_bfloat16_gradients_follow_float32():
 
 def test_bfloat16_training_reaches_float32_error():
     # The returned network is the float32 master weights; train/val MSE are float32 evaluations of it.
-    spec = size_network(800, 1, 1, input_dim=D)
+    spec = size_network(800, 1, 1, ambient_dim=D)
     tasks = make_tasks([800, 800], seeds=[0, 1])
     X_test, _, f_test = circle_data(500, seed=77)
     mse = {}
@@ -303,9 +303,9 @@ def test_bfloat16_training_reaches_float32_error():
 def test_precision_choice():
     from manireg.nets.training import BF16_MIN_FLOPS, native_bfloat16, resolve_precision
 
-    big = size_network(8192, 3, 1, input_dim=64)
-    small = size_network(100, 1, 1, input_dim=3)
-    shallow = size_network(8192, 3, 1, input_dim=64, constants=SizingConstants(depth_min=1, depth_max=1))
+    big = size_network(8192, 3, 1, ambient_dim=64)
+    small = size_network(100, 1, 1, ambient_dim=3)
+    shallow = size_network(8192, 3, 1, ambient_dim=64, constants=SizingConstants(depth_min=1, depth_max=1))
     assert 6.0 * big.n_parameters * 128 >= BF16_MIN_FLOPS > 6.0 * small.n_parameters * 80
     auto = TrainConfig()
     assert resolve_precision(auto, big, 128) == ("bfloat16" if native_bfloat16() else "float32")

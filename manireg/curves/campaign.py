@@ -178,7 +178,7 @@ class CampaignResult(ResultMixin):
         if fit is None:
             fit = fit_exponent(self.rows, learner, **self.fit_settings(**fit_kwargs))
         return plan_samples(fit, target_error, allow_unverified=allow_unverified, dimension=self.dimension,
-                            smoothness=self.smoothness, input_dim=self.ambient_dim)
+                            smoothness=self.smoothness, ambient_dim=self.ambient_dim)
 
 
 def _pair(v):

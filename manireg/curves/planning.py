@@ -127,7 +127,6 @@ def plan_samples(
     smoothness=None,
     ambient_dim=None,
     constants=None,
-    input_dim=None,
 ) -> SamplePlan:
     """Samples needed for a target test error, by inverting the fitted ``err = a n^-b + c``.
 
@@ -147,7 +146,7 @@ def plan_samples(
     dimension, smoothness : float, optional
         ``d`` and ``s`` for the network size at the planned n (default: the values stored in the fit).
     ambient_dim : int, optional
-        Input width ``D`` of the network (default: the fit's ``ambient_dim``); ``input_dim`` is its old name.
+        Input width ``D`` of the network (default: the fit's ``ambient_dim``).
     constants : optional
         Passed to :func:`manireg.theory.sizing.size_network`.
 
@@ -218,7 +217,7 @@ def plan_samples(
     arch_n = None
     d = dimension if dimension is not None else fit.dimension
     s = smoothness if smoothness is not None else fit.smoothness
-    D = ambient_dim if ambient_dim is not None else (input_dim if input_dim is not None else fit.ambient_dim)
+    D = ambient_dim if ambient_dim is not None else fit.ambient_dim
     if smoothness is None and s is not None and not isinstance(s, (int, float)):
         s = None  # the fit holds a range of s; size the network only when one value is passed here
     if d is not None and s is not None and D is not None and np.isfinite(n_req):

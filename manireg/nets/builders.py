@@ -222,7 +222,7 @@ def build_network(spec, seed=None, standardize=None, target_scale=None) -> ReLUN
     Examples
     --------
     >>> from manireg.theory import size_network
-    >>> net = build_network(size_network(1000, 2, 1, input_dim=10), seed=0)
+    >>> net = build_network(size_network(1000, 2, 1, ambient_dim=10), seed=0)
     >>> net(torch.zeros(3, 10)).shape
     torch.Size([3])
     """

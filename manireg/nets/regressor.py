@@ -36,11 +36,11 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
 
     Parameters
     ----------
-    d : float or None, default=None
-        Intrinsic dimension used for sizing; None uses the number of features (no manifold assumed).
+    dimension : float or None, default=None
+        Intrinsic dimension d used for sizing; None uses the number of features (no manifold assumed).
         Estimate it with :mod:`manireg.geometry`.
-    s : float, default=1.0
-        Assumed Hölder smoothness of the target.
+    smoothness : float, default=1.0
+        Assumed Hölder smoothness s of the target.
     sizing_constants : SizingConstants or None
         Constants of :func:`~manireg.theory.size_network`.
     width_multiplier : float, default=1.0
@@ -70,7 +70,7 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
     >>> import numpy as np
     >>> rng = np.random.default_rng(0)
     >>> X = rng.normal(size=(300, 4)); y = np.cos(X[:, 0])
-    >>> reg = NetworkRegressor(d=1, max_steps=200, random_state=0).fit(X, y)
+    >>> reg = NetworkRegressor(dimension=1, max_steps=200, random_state=0).fit(X, y)
     >>> reg.predict(X[:3]).shape
     (3,)
     """
@@ -86,8 +86,8 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
     def __init__(
         self,
         *,
-        d=None,
-        s=1.0,
+        dimension=None,
+        smoothness=1.0,
         sizing_constants=None,
         width_multiplier=1.0,
         output_bound="auto",
@@ -106,8 +106,8 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
         n_threads=_T["n_threads"],
         random_state=None,
     ):
-        self.d = d
-        self.s = s
+        self.dimension = dimension
+        self.smoothness = smoothness
         self.sizing_constants = sizing_constants
         self.width_multiplier = width_multiplier
         self.output_bound = output_bound
@@ -138,7 +138,7 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
         y = check_target(y, len(X), owner=owner)
         config = self._config()
         D = X.shape[1]
-        d = D if self.d is None else self.d
+        d = D if self.dimension is None else self.dimension
         if self.output_bound == "auto":
             bound = 1.1 * float(np.abs(y).max()) if np.abs(y).max() > 0 else 1.0
         elif self.output_bound is None:
@@ -152,7 +152,7 @@ class NetworkRegressor(RegressorMixin, BaseEstimator):
         perm = rng.permutation(len(X))
         tr, va = perm[n_val:], perm[:n_val]
         self.spec_ = size_network(
-            len(tr), d, self.s, D, constants=self.sizing_constants,
+            len(tr), d, self.smoothness, D, constants=self.sizing_constants,
             width_multiplier=self.width_multiplier, output_bound=bound,
         )
         seed = int(rng.integers(0, 2**31 - 1))

@@ -415,7 +415,7 @@ class _Prepared:
         if X.shape[1] != input_dim:
             raise DataValidationError(
                 f"{owner}: tasks[{index}].X_train has {X.shape[1]} columns but spec.input_dim is {input_dim}. "
-                "Size the spec with input_dim=X.shape[1]."
+                "Size the spec with ambient_dim=X.shape[1] (size_network(n, d, s, X.shape[1]))."
             )
         if task.X_val is None:
             rng = np.random.default_rng(derive_seed(seed, 2))

@@ -16,7 +16,7 @@ def plot_sizing(table, ax=None):
     """Parameter count (left axis) and predicted error n^(-2s/(2s+d)) next to the ambient n^(-2s/(2s+D)) (right axis)."""
     fig, ax = new_axes(ax, (6.6, 4.2))
     f = table.to_frame()
-    D = getattr(table, "ambient_dim", getattr(table, "input_dim", None))
+    D = table.ambient_dim
     ax.plot(f["n"], f["n_parameters"], "-", marker="o", ms=4, color=_COUNT, label="parameters (dense)")
     ax.plot(f["n"], f["nonzero_budget"], "--", marker="s", ms=4, color=_COUNT, alpha=0.7, label="nonzero weights allowed")
     ax.set_xscale("log")

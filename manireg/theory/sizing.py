@@ -187,7 +187,7 @@ def dense_parameter_count(input_dim: int, depth: int, width: int) -> int:
     return dense_weight_count(input_dim, depth, width) + depth * width + 1
 
 
-def size_network(n, d, s, input_dim, constants=None, width_multiplier=1.0, output_bound=None) -> ArchitectureSpec:
+def size_network(n, d, s, ambient_dim, constants=None, width_multiplier=1.0, output_bound=None) -> ArchitectureSpec:
     """Size a ReLU network for ``n`` samples of an ``s``-smooth target on a ``d``-dimensional manifold.
 
     Rules (``a = d / (2s + d)``; all clipped into the bounds of ``constants``):
@@ -205,10 +205,10 @@ def size_network(n, d, s, input_dim, constants=None, width_multiplier=1.0, outpu
     n : int
         Number of training samples, >= 2.
     d : float
-        Intrinsic dimension, >= 1 and <= ``input_dim``.
+        Intrinsic dimension, >= 1 and <= ``ambient_dim``.
     s : float
         Hölder smoothness of the target, > 0.
-    input_dim : int
+    ambient_dim : int
         Ambient dimension D (columns of X).
     constants : SizingConstants, optional
         Constants and bounds; the documented defaults when None.
@@ -224,7 +224,7 @@ def size_network(n, d, s, input_dim, constants=None, width_multiplier=1.0, outpu
     Raises
     ------
     ValueError
-        For ``n < 2``, ``d < 1``, ``s <= 0``, ``d > input_dim`` or a bad constant.
+        For ``n < 2``, ``d < 1``, ``s <= 0``, ``d > ambient_dim`` or a bad constant.
 
     References
     ----------
@@ -233,7 +233,7 @@ def size_network(n, d, s, input_dim, constants=None, width_multiplier=1.0, outpu
 
     Examples
     --------
-    >>> spec = size_network(10_000, d=2, s=1, input_dim=10)
+    >>> spec = size_network(10_000, d=2, s=1, ambient_dim=10)
     >>> spec.depth, spec.width
     (5, 200)
     """
@@ -251,12 +251,12 @@ def size_network(n, d, s, input_dim, constants=None, width_multiplier=1.0, outpu
             f"the 'n' parameter of {owner} must be a number of samples >= 2; got {n!r}. "
             "Pass the training-set size."
         )
-    input_dim = check_int(input_dim, "input_dim", owner=owner, low=1)
+    ambient_dim = check_int(ambient_dim, "ambient_dim", owner=owner, low=1)
     b = regression_exponent(d, s)  # validates d >= 1 and s > 0
-    if d > input_dim:
+    if d > ambient_dim:
         raise ValueError(
-            f"the 'd' parameter of {owner} must be <= input_dim={input_dim} (an intrinsic dimension cannot "
-            f"exceed the ambient one); got d={d!r}. Check that d and input_dim are not swapped."
+            f"the 'd' parameter of {owner} must be <= ambient_dim={ambient_dim} (an intrinsic dimension cannot "
+            f"exceed the ambient one); got d={d!r}. Check that d and ambient_dim are not swapped."
         )
     width_multiplier = check_float(width_multiplier, "width_multiplier", owner=owner, low=0.0, low_open=True)
     given = output_bound is not None
@@ -272,7 +272,7 @@ def size_network(n, d, s, input_dim, constants=None, width_multiplier=1.0, outpu
     logn = math.log(n)
     depth = int(np.clip(math.ceil(c.c_depth * logn), c.depth_min, c.depth_max))
     width = int(np.clip(math.ceil(width_multiplier * c.c_width * n**a), c.width_min, c.width_max))
-    dense_w = dense_weight_count(input_dim, depth, width)
+    dense_w = dense_weight_count(ambient_dim, depth, width)
     budget = int(np.clip(math.ceil(c.c_nonzero * n**a * logn), min(c.nonzero_min, dense_w), dense_w))
     wm = "" if width_multiplier == 1.0 else f"{width_multiplier:g} * "
     rules = {
@@ -290,7 +290,7 @@ def size_network(n, d, s, input_dim, constants=None, width_multiplier=1.0, outpu
         "n_parameters": "n_parameters = (D+1)*w + (depth-1)*(w+1)*w + (w+1) (dense count)",
     }
     return ArchitectureSpec(
-        input_dim=input_dim,
+        input_dim=ambient_dim,
         depth=depth,
         width=width,
         nonzero_budget=budget,
@@ -313,7 +313,7 @@ class SizingTable(ResultMixin):
 
     d: float
     s: float
-    input_dim: int
+    ambient_dim: int
     exponent: float
     ambient_exponent: float
     specs: list
@@ -332,13 +332,13 @@ class SizingTable(ResultMixin):
         return pd.DataFrame(rows)
 
 
-def sizing_table(n_grid, d, s, input_dim, constants=None, width_multiplier=1.0) -> SizingTable:
+def sizing_table(n_grid, d, s, ambient_dim, constants=None, width_multiplier=1.0) -> SizingTable:
     """:func:`size_network` at every n of ``n_grid`` (e.g. ``np.geomspace(1e2, 1e5, 13)``)."""
     from manireg.theory.rates import ambient_exponent
 
     grid = np.atleast_1d(np.asarray(n_grid, dtype=float))
     if grid.size == 0:
         raise ValueError("the 'n_grid' parameter of sizing_table must hold at least one sample size; got an empty grid.")
-    specs = [size_network(float(n), d, s, input_dim, constants=constants, width_multiplier=width_multiplier) for n in grid]
-    return SizingTable(float(d), float(s), int(input_dim), float(regression_exponent(d, s)),
-                       float(ambient_exponent(input_dim, s)), specs)
+    specs = [size_network(float(n), d, s, ambient_dim, constants=constants, width_multiplier=width_multiplier) for n in grid]
+    return SizingTable(float(d), float(s), int(ambient_dim), float(regression_exponent(d, s)),
+                       float(ambient_exponent(ambient_dim, s)), specs)

@@ -527,7 +527,7 @@ class CurvePanel(Panel):
         theory = self.theory()
         plan = self._call("the plan", plan_samples, self.fit, target, allow_unverified=bool(self.allow_unverified.value),
                           _show=False, dimension=theory["dimension"], smoothness=theory["smoothness"],
-                          input_dim=theory["ambient_dim"])
+                          ambient_dim=theory["ambient_dim"])
         self.plan = plan
         if plan is None:
             self.plan_html.value = colour_span(self.last_message or "", "error")

@@ -10,7 +10,7 @@ Run as a script (pytest does not collect it):
 
 Data: a 2-sphere in R^3 placed in R^64 by a random rotation, target sin(2 x1) + x2 x3 + noise (sd 0.1),
 test MSE against the noise-free target on 2000 points. All three learners get the same hidden sizes
-(``size_network(n_train, d=2, s=1, input_dim=64)``), batch size, learning rate and validation split; the
+(``size_network(n_train, d=2, s=1, ambient_dim=64)``), batch size, learning rate and validation split; the
 batched trainer and the one-at-a-time PyTorch loop run the default ``TrainConfig`` and the same torch
 thread policy (``manireg.nets.training.auto_threads``: one thread for a step under 2e8 flops, else
 torch's setting).
@@ -160,7 +160,7 @@ def crossover():
           f"{'bfloat16 ms':>11} {'ratio':>6}")
     cases = [(n, 1.0) for n in (256, 512, 1024, 2048, 4096, 8192)] + [(256, 32 / 56), (256, 48 / 56)]
     for n, wm in cases:
-        spec = size_network(n, 3, 1, input_dim=64, width_multiplier=wm)
+        spec = size_network(n, 3, 1, ambient_dim=64, width_multiplier=wm)
         n_fit = int(0.8 * n)
         rows = n_fit if n_fit <= 256 else 128
         a = step_seconds(spec, 5, rows, None)
@@ -191,7 +191,7 @@ def floor():
         X, f = circle_data(n + n_val, seed=r)
         tasks.append(ReplicaTask(X[:n], f[:n], X[n:], f[n:], seed=r))
     Xte, fte = circle_data(2000, seed=99)
-    spec = size_network(n, 1, 1, input_dim=Xte.shape[1], width_multiplier=4)
+    spec = size_network(n, 1, 1, ambient_dim=Xte.shape[1], width_multiplier=4)
     print(f"circle in R^10, n {n}, width {spec.width}, depth {spec.depth}, target variance {fte.var():.4f}; "
           "test MSE / target variance per replica")
     for steps in (500, 2000):
@@ -245,7 +245,7 @@ def main(argv=None):
         n_val = n // 5
         data = [make_data(n, seed=1000 * n + r) for r in range(repeats)]
         n_tr = n - n_val
-        spec = size_network(n_tr, 2, 1, input_dim=64)
+        spec = size_network(n_tr, 2, 1, ambient_dim=64)
         tasks = [ReplicaTask(X[:n_tr], y[:n_tr], X[n_tr:], y[n_tr:], seed=r) for r, (X, y, _) in enumerate(data)]
         # 1) batched
         t = time.perf_counter()
