@@ -68,3 +68,45 @@ def test_cli_doc_lists_every_option():
     missing = [flag for flag in _cli_options() if flag.startswith("--") and flag not in ("--help", "--version")
                and f"`{flag}" not in text]
     assert not missing, f"docs/cli.md does not describe {missing}"
+
+
+def _screen_labels():
+    labels = set()
+    for line in open(DOC, encoding="utf-8"):
+        if line.startswith("|") and not line.startswith("|---"):
+            cells = [c.strip() for c in line.strip().strip("|").split("|")]
+            if cells[0] != "concept" and cells:
+                labels |= {part.strip() for part in cells[-1].split(",") if part.strip()}
+    return labels
+
+
+def _panel_labels():
+    import ipywidgets as w
+    import numpy as np
+    import pandas as pd
+
+    from manireg.widgets import CurvePanel, GeometryPanel, SizingPanel
+
+    def walk(x, out):
+        d = getattr(x, "description", None)
+        if isinstance(d, str) and d.strip():
+            out.add(d.strip())
+        for c in getattr(x, "children", ()) or ():
+            walk(c, out)
+        return out
+
+    rng = np.random.default_rng(0)
+    rows = pd.DataFrame([{"learner": "net", "n": n, "repeat": r, "status": "ok",
+                          "test_mse": n ** -0.5 * (1 + 0.05 * rng.standard_normal())}
+                         for n in (50, 100, 200, 400) for r in range(3)])
+    X = rng.normal(size=(300, 3))
+    X[:, 2] = X[:, 0] ** 2
+    labels = set()
+    for panel in (SizingPanel(), CurvePanel(rows, n_boot=20), GeometryPanel(X, auto=False)):
+        walk(panel, labels)
+    return labels
+
+
+def test_every_panel_label_is_in_the_vocabulary():
+    missing = sorted(_panel_labels() - _screen_labels())
+    assert not missing, f"panel labels missing from docs/vocabulary.md: {missing}"
