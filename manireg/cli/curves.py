@@ -17,7 +17,8 @@ def add_parser(sub):
                        "finished cells are read from the store, only missing ones are trained.")
     add_data_options(p, target_required=True)
     g = p.add_mutually_exclusive_group()
-    g.add_argument("--smoothness", type=float, metavar="s", help="Hölder smoothness s of the target (default 1)")
+    g.add_argument("--smoothness", type=float, metavar="s",
+                   help="Hölder smoothness s of the target (default: estimated from the data by local differences)")
     g.add_argument("--smoothness-range", type=float, nargs=2, metavar=("A", "B"), help="a range of s: predictions become intervals")
     p.add_argument("--dimension", type=float, metavar="d", help="intrinsic dimension d (default: the geometry read-out's consensus)")
     p.add_argument("--sizes", type=int, nargs="+", metavar="N", help="training sizes (default: a geometric grid)")
@@ -74,6 +75,18 @@ def smoothness_choice(args):
     return args.smoothness, None
 
 
+def estimated_smoothness(X, y, seed) -> float:
+    """s from local differences (:func:`manireg.curves.smoothness.estimate_smoothness`), said in one line."""
+    from ..curves.smoothness import estimate_smoothness
+
+    est = estimate_smoothness(X, y, seed=seed)
+    lo, hi = est.interval
+    note = "; at most 1 is visible, so read it as s >= %.2f" % lo if est.saturated else ""
+    say(f"smoothness not given: estimated s = {est.smoothness:.2f} [95% interval {lo:.2f}, {hi:.2f}] from local "
+        f"differences of the target{note}; pass --smoothness to set it")
+    return float(est.smoothness)
+
+
 def run(args) -> int:
     from ..curves import Campaign
     from ..curves.sweep import check_sizes
@@ -97,6 +110,8 @@ def run(args) -> int:
         geo = describe(table.X, table.y, seed=args.seed, view=not args.no_view, progress=not args.quiet)
         say(str(geo.dimension))
     d = args.dimension if args.dimension is not None else working_dimension(geo.dimension.consensus)
+    if s is None:
+        s = estimated_smoothness(table.X, table.y, args.seed)
     store = args.store or os.path.join(out, "campaign.sqlite")
     name = args.campaign or "campaign"
     learners = learner_specs(args.learners, args.width_multipliers, args.precision, sizing)
