@@ -45,3 +45,21 @@ def test_knn_route_needs_a_dimension_and_gives_an_interval():
     knn = est.parts["knn"]
     assert knn["interval"][0] <= knn["smoothness"] <= knn["interval"][1]
     assert 0 < knn["exponent"] < 1 and len(est.to_frame()) == 2
+
+
+def test_curves_command_estimates_s_when_not_given(tmp_path, capsys):
+    import pandas as pd
+
+    from manireg.cli import main
+
+    reg = make_regression(sphere(900, 2, ambient_dim=5, seed=3), 0.5, noise_std=0.1, seed=4)
+    csv = tmp_path / "d.csv"
+    frame = pd.DataFrame(reg.X, columns=[f"x{j}" for j in range(5)])
+    frame["y"] = reg.y
+    frame.to_csv(csv, index=False)
+    code = main(["curves", str(csv), "--target", "y", "--sizes", "100", "200", "400", "--repeats", "2", "--learners",
+                 "knn", "--no-geometry", "--dimension", "2", "--quiet", "--out", str(tmp_path / "out")])
+    assert code == 0
+    out = capsys.readouterr().out
+    line = [l for l in out.splitlines() if l.startswith("smoothness not given")]
+    assert len(line) == 1 and "interval" in line[0] and "--smoothness" in line[0]

@@ -79,7 +79,11 @@ def estimated_smoothness(X, y, seed) -> float:
     """s from local differences (:func:`manireg.curves.smoothness.estimate_smoothness`), said in one line."""
     from ..curves.smoothness import estimate_smoothness
 
-    est = estimate_smoothness(X, y, seed=seed)
+    try:
+        est = estimate_smoothness(X, y, seed=seed)
+    except ValueError as exc:
+        say(f"smoothness not given and not estimable ({exc}); using s = 1 (Lipschitz); pass --smoothness to set it")
+        return 1.0
     lo, hi = est.interval
     note = "; at most 1 is visible, so read it as s >= %.2f" % lo if est.saturated else ""
     say(f"smoothness not given: estimated s = {est.smoothness:.2f} [95% interval {lo:.2f}, {hi:.2f}] from local "

@@ -193,10 +193,11 @@ def difference_smoothness(X, y, *, ks=tuple(range(1, 17)), n_subsamples=1, n_par
     level = check_float(level, "level", owner=owner, low=0.5, high=0.999)
     X, y = _distinct(X, y)
     n = X.shape[0]
-    if n < 64 * n_parts:
+    n_parts = min(n_parts, n // 64)  # parts of at least 64 rows
+    if n_parts < 3:
         raise ValueError(
-            f"{owner} needs at least {64 * n_parts} distinct rows for {n_parts} parts of 64; got {n}. "
-            "Pass fewer n_parts or more data."
+            f"{owner} needs at least 192 distinct rows (3 parts of 64 for its interval); got {n}. "
+            "Give s yourself (smoothness=...) or more data."
         )
     rng = make_rng(seed)
 
