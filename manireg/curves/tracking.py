@@ -36,8 +36,9 @@ from manireg._validation import check_choice, check_float, check_int
 
 __all__ = ["TrackingResult", "track_rates", "predicted_band", "campaign_name", "DEFAULT_TRACKING"]
 
-#: The default grid: a few minutes on 2 cores with kNN and the net.
-DEFAULT_TRACKING = {"dimensions": (2, 3), "smoothness": (0.5, 1.0, 2.0), "sizes": (250, 500, 1000, 2000, 4000),
+#: The default grid (6 campaigns, 4 sizes, 3 repeats): measured at 11 minutes for kNN and the net on a shared
+#: 2-core machine under a load average near 9 (docs/theory.md, Rate tracking).
+DEFAULT_TRACKING = {"dimensions": (2, 3), "smoothness": (0.5, 1.0, 2.0), "sizes": (250, 500, 1000, 2000),
                     "repeats": 3, "ambient_dim": 10, "test_size": 1000, "noise_std": 0.1}
 
 _MANIFOLDS = ("sphere", "graph_manifold")
