@@ -52,7 +52,7 @@ def test_no_retired_name_is_an_option():
     for old in RENAMED:
         assert old not in options, old
     commands = {a for act in build_parser()._actions if isinstance(act, argparse._SubParsersAction) for a in act.choices}
-    assert commands == {"demo", "geometry", "curves", "policy", "size", "plan", "report"}
+    assert commands == {"demo", "geometry", "curves", "policy", "size", "plan", "report", "track"}
 
 
 def test_vocabulary_rows_name_one_concept_each():

@@ -1,6 +1,6 @@
 """The ``manireg`` command line. Thin: it parses arguments, calls core functions and prints their results.
 
-Commands (one module each): ``demo``, ``geometry``, ``curves``, ``policy``, ``size``, ``plan``, ``report``. Every command
+Commands (one module each): ``demo``, ``geometry``, ``curves``, ``policy``, ``size``, ``plan``, ``report``, ``track``. Every command
 returns an exit code: 0 on success, 2 with a one-line reason on bad input (never a traceback for a user
 error), 130 when interrupted (finished cells are kept in the store; running again resumes).
 """
@@ -11,12 +11,12 @@ import argparse
 import sys
 
 from ._common import UsageError, captured_warnings, quiet_libraries
-from . import curves, demo, geometry, plan, policy, report, size
+from . import curves, demo, geometry, plan, policy, report, size, track
 
 __all__ = ["main", "build_parser", "COMMANDS", "RENAMED"]
 
 #: The command modules, in the order ``--help`` lists them.
-COMMANDS = (demo, geometry, curves, policy, size, plan, report)
+COMMANDS = (demo, geometry, curves, policy, size, plan, report, track)
 
 #: Options and commands of earlier versions -> what replaced them (named in one extra line after argparse's error).
 RENAMED = {

@@ -21,7 +21,8 @@ def add_parser(sub):
                        "finished cells are read from the store, only missing ones are trained.")
     add_data_options(p, target_required=True)
     g = p.add_mutually_exclusive_group()
-    g.add_argument("--smoothness", type=float, metavar="s", help="Hölder smoothness s of the target (default 1)")
+    g.add_argument("--smoothness", type=float, metavar="s",
+                   help="Hölder smoothness s of the target (default: estimated from the data by local differences)")
     g.add_argument("--smoothness-range", type=float, nargs=2, metavar=("A", "B"), help="a range of s: predictions become intervals")
     p.add_argument("--dimension", type=float, metavar="d", help="intrinsic dimension d (default: the geometry read-out's consensus)")
     p.add_argument("--sizes", type=int, nargs="+", metavar="N", help="training sizes (default: a geometric grid)")
@@ -84,6 +85,22 @@ def smoothness_choice(args):
     return args.smoothness, None
 
 
+def estimated_smoothness(X, y, seed) -> float:
+    """s from local differences (:func:`manireg.curves.smoothness.estimate_smoothness`), said in one line."""
+    from ..curves.smoothness import estimate_smoothness
+
+    try:
+        est = estimate_smoothness(X, y, seed=seed)
+    except ValueError as exc:
+        say(f"smoothness not given and not estimable ({exc}); using s = 1 (Lipschitz); pass --smoothness to set it")
+        return 1.0
+    lo, hi = est.interval
+    note = "; at most 1 is visible, so read it as s >= %.2f" % lo if est.saturated else ""
+    say(f"smoothness not given: estimated s = {est.smoothness:.2f} [95% interval {lo:.2f}, {hi:.2f}] from local "
+        f"differences of the target{note}; pass --smoothness to set it")
+    return float(est.smoothness)
+
+
 def run(args) -> int:
     from ..curves import Campaign
     from ..curves.sweep import check_sizes
@@ -136,6 +153,14 @@ def run(args) -> int:
         say(str(geo.dimension))
         consensus = geo.dimension.consensus
     d = args.dimension if args.dimension is not None else working_dimension(consensus)
+    if s is None:
+        if classify or y is None:
+            say("smoothness not given; using s = 1 (Lipschitz) for the sizing and the predictions "
+                f"({'labels' if classify else 'a table left on disk'}: no estimate from local differences); "
+                "pass --smoothness to set it")
+            s = 1.0
+        else:
+            s = estimated_smoothness(X, y, args.seed)
     store = args.store or os.path.join(out, "campaign.sqlite")
     name = args.campaign or "campaign"
     learners = learner_specs(args.learners, args.width_multipliers, args.precision, sizing)

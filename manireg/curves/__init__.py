@@ -20,6 +20,8 @@ _EXPORTS = {
     ".store": ["ResultStore", "StoreError"],
     ".campaign": ["Campaign", "CampaignResult"],
     ".sweep": ["Cell", "CampaignSpec", "default_sizes", "expand"],
+    ".smoothness": ["SmoothnessEstimate", "estimate_smoothness"],
+    ".tracking": ["TrackingResult", "track_rates"],
 }
 
 __getattr__, __dir__, __all__ = lazy_namespace(__name__, _EXPORTS)
