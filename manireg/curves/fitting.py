@@ -48,6 +48,7 @@ __all__ = [
     "VERDICT_NOT_POWER_LAW",
     "VERDICT_INSUFFICIENT",
     "VERDICT_NOT_SHOWN",
+    "VERDICTS",
     "FloorChoice",
     "floor_model",
     "exponent_scan",
@@ -60,6 +61,8 @@ VERDICT_MEASURED = "measured"
 VERDICT_NOT_POWER_LAW = "not a power law over this range"
 VERDICT_INSUFFICIENT = "insufficient data"
 VERDICT_NOT_SHOWN = "power law not shown at this precision"
+#: Every verdict a fit can give.
+VERDICTS = (VERDICT_MEASURED, VERDICT_NOT_POWER_LAW, VERDICT_NOT_SHOWN, VERDICT_INSUFFICIENT)
 
 REQUIRED_COLUMNS = ("learner", "n", "repeat", "test_mse")
 OPTIMISATION_CAPS = ("step_cap", "time_cap")
@@ -888,10 +891,42 @@ def _loso_errors(x, m, floor, c0, noise_high):
     Every size is held out in turn (the ends are extrapolations); each model is refitted on the others and
     predicts the held-out mean error. Returns {model: error or None (too few sizes)}.
     """
+    preds = _model_predictions(x, m, floor, c0, noise_high, held_out=True)
+    target = np.log(m)
+    errs = {}
+    for name, pred in preds.items():
+        with np.errstate(invalid="ignore", divide="ignore"):
+            e = (np.log(pred) - target) ** 2
+        errs[name] = float(np.mean(e)) if np.all(np.isfinite(e)) else float("inf")
+    return errs
+
+
+def _model_drift(x, m, floor, c0, noise_high, masks):
+    """How far each curve model's own exponent moves across the fitted range: each model is fitted on every
+    size, and the exponent of its fitted curve (floor ``c0`` subtracted, as for the data) is read on the lower
+    and the upper half of the sizes. Returns {model: |upper - lower|} (inf where the fitted curve falls to
+    the floor). A model that predicts held-out sizes better but bends less than the equivalence margin does
+    not contradict a single exponent at that precision."""
+    out = {}
+    for name, pred in _model_predictions(x, m, floor, c0, noise_high, held_out=False).items():
+        if name == "power law":
+            continue
+        pred = np.asarray(pred, dtype=float)
+        if not np.all(np.isfinite(pred)) or np.any(pred <= c0):
+            out[name] = float("inf")
+            continue
+        up = _subrange_slopes(x, pred[None, :], c0, masks["upper half"])[0]
+        lo = _subrange_slopes(x, pred[None, :], c0, masks["lower half"])[0]
+        out[name] = float(abs(up - lo)) if np.isfinite(up) and np.isfinite(lo) else float("inf")
+    return out
+
+
+def _model_predictions(x, m, floor, c0, noise_high, *, held_out):
+    """Each curve model's prediction of the mean error at every size: refitted without that size
+    (``held_out=True``) or fitted on all sizes."""
     k = m.size
     Mrep = np.broadcast_to(m, (k, k)).copy()
-    W = 1.0 - np.eye(k)
-    target = np.log(m)
+    W = 1.0 - np.eye(k) if held_out else np.ones((k, k))
     out = {}
     # the base power law, with the chosen floor treatment (a fitted floor is refitted each time)
     a, b, c = _fit_means(x, Mrep, floor, W)
@@ -909,12 +944,7 @@ def _loso_errors(x, m, floor, c0, noise_high):
         D = np.column_stack([np.ones(k), -x, np.log(x)])
         coef = _wls(D, Y, Wp)
         out["power law x log"] = np.exp(np.einsum("kp,kp->k", coef, D)) + cfix
-    errs = {}
-    for name, pred in out.items():
-        with np.errstate(invalid="ignore", divide="ignore"):
-            e = (np.log(pred) - target) ** 2
-        errs[name] = float(np.mean(e)) if np.all(np.isfinite(e)) else float("inf")
-    return errs
+    return out
 
 
 # ----------------------------------------------------------------------------------------------------
@@ -1231,9 +1261,13 @@ def fit_exponent(
         logE = np.log(E)
         noise_var = float(np.nanmean(np.nanvar(logE, axis=0, ddof=1) / np.sum(np.isfinite(logE), axis=0)))
     pl = cv["power law"]
-    beaten = [nm for nm, e in cv.items() if nm != "power law" and e < beaten_ratio * pl and pl > max(2.0 * noise_var, 1e-10)]
-    preferred = min(beaten, key=cv.get) if beaten else "power law"
-    comparison = [{"model": nm, "description": CURVE_MODELS[nm], "loso_error": e} for nm, e in cv.items()]
+    drift = _model_drift(x, m, fl, c0, min(noise_high, 0.95 * float(np.min(m))), masks)
+    better = [nm for nm, e in cv.items() if nm != "power law" and e < beaten_ratio * pl and pl > max(2.0 * noise_var, 1e-10)]
+    # beaten: a model that predicts held-out sizes better AND bends by at least the equivalence margin
+    beaten = [nm for nm in better if drift.get(nm, float("inf")) >= margin]
+    preferred = min(beaten or better, key=cv.get) if better else "power law"
+    comparison = [{"model": nm, "description": CURVE_MODELS[nm], "loso_error": e,
+                   "exponent_drift": drift.get(nm, 0.0 if nm == "power law" else float("nan"))} for nm, e in cv.items()]
 
     scan = _window_scan(x, sizes, m, Mloo, c0, cloo, level, scan_window)
     local = local_slopes(sizes, m, floor=c0 if c0 > 0 else 0.0).to_dict(orient="records")
