@@ -323,7 +323,7 @@ def test_curve_panel_runs_in_background_and_matches_fit_exponent(sample, tmp_pat
     assert set(panel.fits) == {"net", "knn"}
     assert panel.curves_image.value[:4] == b"\x89PNG"
     # the "estimate" floor is the campaign's own estimate (outside the test rows), not a new one on all rows
-    assert settings["floor"] == "estimate" and settings["noise_variance"] == campaign.noise_estimate()
+    assert settings["floor"] == "estimate" and settings["noise_variance"] == campaign.noise_level()
 
 
 def test_curve_panel_default_fit_is_the_campaign_default(finished_campaign):
@@ -382,7 +382,7 @@ def test_curve_panel_floor_choices_go_through_choose_floor(finished_campaign, mo
     assert spy.calls[-1][1]["floor"] == 0.001 and resolve_spy.calls[-1][0][0] == 0.001
     panel.floor.value = "estimate"
     kwargs = spy.calls[-1][1]
-    assert kwargs["floor"] == "estimate" and kwargs["noise_variance"] == result.noise_estimate
+    assert kwargs["floor"] == "estimate" and kwargs["noise_variance"] == result.noise_level
     panel.floor.value = "fit"
     assert spy.calls[-1][1]["floor"] == "fit"
     assert "power law plus a fitted floor" in panel.exponent_html.value
@@ -411,7 +411,7 @@ def test_curve_panel_estimate_floor_without_an_estimate_says_so(finished_campaig
     panel.floor.value = "fit"
     assert panel.error is None and panel.fit is not None
     given = CurvePanel(rows, n_boot=20, noise_estimate=0.02)
-    assert given.fit_settings()["noise_variance"] == 0.02
+    assert given.fit_settings()["noise_variance"].value == 0.02
 
 
 def test_curve_panel_planner(finished_campaign, monkeypatch):
