@@ -118,6 +118,27 @@ def test_demo_quick(tmp_path):
     assert summary["data"]["true_dimension"] == 2 and summary["data"]["ambient_dim"] == 1024
     assert set(summary["exponents"]) == {"net", "knn"}
     assert "report:" in r.stdout and (tmp_path / "report.html").exists()
+    # each learner against its own reference rate, in the printout and the summary
+    assert r.stdout.count("against theory:") == 2 and set(summary["theory"]) == {"net", "knn"}
+    _no_raw_warnings(r.stdout, r.stderr)
+
+
+def _no_raw_warnings(*texts):
+    """No raw Python warning, traceback, source line or library chatter: each condition is one line in our words."""
+    for text in texts:
+        assert not re.search(r"\w+Warning:|\.py:\d+|Traceback|Tensorflow|NumbaWarning", text), text
+
+
+def test_every_command_speaks_in_one_line_warnings(finished_campaign, sphere_csv, tmp_path, capsys):
+    out, _ = finished_campaign
+    store = str(out / "campaign.sqlite")
+    for argv in (["geometry", str(sphere_csv), "--no-view", "--quiet", "--out", str(tmp_path / "g")],
+                 ["size", "--dimension", "2", "--smoothness", "1", "--ambient-dim", "8"],
+                 ["plan", "--store", store, "--learner", "knn", "--target-error", "0.3", "--allow-unverified"],
+                 ["report", "--store", store, "--quiet", "--out", str(tmp_path / "r")]):
+        main(argv)
+        captured = capsys.readouterr()
+        _no_raw_warnings(captured.out, captured.err)
 
 
 @pytest.mark.parametrize(
@@ -224,3 +245,31 @@ def test_old_names_get_the_new_name(argv, new, capsys):
     assert main(argv) == 2
     err = capsys.readouterr().err
     assert "usage:" in err and new in err
+
+
+def test_report_figures_and_settings_agree_with_the_summary(finished_campaign, tmp_path):
+    # every legend of the learning-curve figure and every row of the settings table come from the same
+    # read-out as summary.json (the report never recomputes a number)
+    from manireg import style
+    from manireg.curves import Campaign
+    from manireg.report import compose_report
+
+    out, _ = finished_campaign
+    result = Campaign.from_store(out / "campaign.sqlite")
+    ro = result.read_out(seed=0)
+    settings = {"floor": "noise-variance estimate", "dimension": result.dimension, "smoothness": result.smoothness,
+                "noise_estimate": result.noise_estimate}
+    sections, summary = compose_report(title="t", data={"source": "sphere.csv"}, campaign=result, fits=ro.fits,
+                                       theory=ro.theory, plan=ro.plan, plan_note=ro.plan_note, settings=settings)
+    figs = {name: fig for sec in sections for name, fig, _ in sec.figures}
+    legend = [t.get_text() for t in figs["learning_curves"].axes[0].get_legend().get_texts()]
+    for name, fit in summary["exponents"].items():
+        shown = [t for t in legend if t.startswith(name + ":") and "exponent" in t and "predicted" not in t]
+        assert shown, (name, legend)
+        # the legend's exponent, interval and verdict are the summary's, to the digits shown
+        assert style.fmt_number(fit["exponent"], 2) in shown[0] and fit["verdict"] in shown[0]
+        assert summary["theory"][name]["verdict"] in {c.verdict for c in ro.theory.values()}
+    table = [frame for sec in sections for cap, frame in sec.tables if cap == "Settings"][0]
+    shown = dict(zip(table["setting"], table["value"]))
+    for key, value in summary["settings"].items():
+        assert shown[style.plain_label(key)] == style.fmt_value(value)

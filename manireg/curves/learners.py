@@ -31,7 +31,7 @@ Classification rows fill the columns of :data:`manireg.curves.metrics.CLASSIFICA
 risks only where the campaign knows the Bayes probabilities); the regression columns stay empty.
 
 Every learner fits on the same points of a cell: the first ``n_fit = n - n_val`` of the cell's ``n``
-(``n_val = round(val_fraction * n)``), reports its validation MSE on the other ``n_val`` and its test MSE on
+(``n_val = round(validation_fraction * n)``), reports its validation MSE on the other ``n_val`` and its test MSE on
 the campaign's fixed test set. Nets use the validation part for early stopping; the baselines only report it.
 
 References
