@@ -784,7 +784,8 @@ def _optimisation_limited(sel):
     for _, r in sel.iterrows():
         why = []
         if has_stop and str(r["stop_reason"]) in OPTIMISATION_CAPS:
-            why.append(f"stopped at {r['stop_reason']}")
+            why.append("stopped at the " + {"step_cap": "step limit", "time_cap": "time limit"}.get(
+                str(r["stop_reason"]), str(r["stop_reason"])))
         if has_late and bool(r["late_best"]) and r["late_best"] == r["late_best"]:
             why.append("best step came late")
         if why:
