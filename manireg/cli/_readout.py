@@ -29,7 +29,7 @@ def read_out(result, *, floor, target_error=None, smoothness_range=None, allow_u
         say()
         say("plan: " + str(ro.plan))
     if ro.plan_note:
-        say(ro.plan_note)
+        say(ro.plan_note.replace("allow_unverified=True", "--allow-unverified"))
     for w in ro.warnings:
         warn(w)
     sizing = sizing_table(sorted(set(int(n) for n in result.rows["n"])), result.dimension, result.smoothness,

@@ -184,7 +184,9 @@ def run(args) -> int:
                           metadata=extra)
     if classify:
         return classification_read_out(result, args.seed)
-    say(f"noise-variance estimate (first-neighbour, outside the test set): {result.noise_estimate:.4g}")
+    iv = result.noise_estimate_interval
+    say(f"noise-variance estimate (local differences, outside the test set): {result.noise_estimate:.4g}"
+        + ("" if iv is None else f" [interval {iv[0]:.4g}, {iv[1]:.4g}]"))
     parts = read_out(result, floor=floor, target_error=args.target_error, smoothness_range=s_range,
                      allow_unverified=args.allow_unverified, seed=args.seed)
     settings = report_parts(result, floor, {

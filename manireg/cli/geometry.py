@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import os
 
-from ._common import add_data_options, add_run_options, captured_warnings, load, out_dir, say, steps_bar, write_json
+from ._common import add_data_options, add_run_options, load, out_dir, say, steps_bar, warn, write_json
 
 HELP = "intrinsic dimension, charts, reach and curvature of a data file"
 
@@ -29,14 +29,26 @@ def describe(X, y, *, seed, view, dimension=None, radius=None, progress=True, n_
     """The geometry read-out with a progress bar naming each step; warnings become one line each."""
     from ..geometry import GEOMETRY_STEPS, describe_geometry
 
+    import warnings
+
     steps = GEOMETRY_STEPS if view else GEOMETRY_STEPS[:-1]
     cb, close = steps_bar(steps, progress, "geometry")
-    with captured_warnings():
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
         try:
             geo = describe_geometry(X, y, dimension=dimension, radius=radius, embed=view, seed=seed, callback=cb,
                                     n_boot=n_boot)
         finally:
             close()
+    # the dimension report prints its own warnings; the others become one line each
+    shown = set(getattr(geo.dimension, "warnings", []) or [])
+    for w in caught:
+        text = " ".join(str(w.message).split())
+        if issubclass(w.category, (DeprecationWarning, PendingDeprecationWarning, ImportWarning, FutureWarning)):
+            continue
+        if "matplotlib" in str(w.filename) or any(s in text for s in shown):
+            continue
+        warn(text)
     return geo
 
 
