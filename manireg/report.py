@@ -20,13 +20,20 @@ from . import style
 from ._results import to_jsonable
 
 __all__ = ["ReportSection", "package_versions", "write_report", "compose_report", "exponent_table_frame",
-           "theory_table_frame", "ASYMPTOTIC_NOTE"]
+           "theory_table_frame", "classification_table_frame", "ASYMPTOTIC_NOTE", "CLASSIFICATION_NOTE"]
 
 ASYMPTOTIC_NOTE = (
     "Predicted rates are asymptotic statements: the theory bounds the error by C n^(-2s/(2s+d)) times log "
     "factors for n large enough, with constants it does not give. A predicted exponent is a reference line, not "
     "a forecast of the error at any particular n, and a measured exponent is quoted only with its interval and "
     "its verdict."
+)
+
+CLASSIFICATION_NOTE = (
+    "Reference rates are asymptotic statements: the excess logistic risk is bounded by C n^(-s/(2s+2 max(s,d))) "
+    "times log factors for n large enough, for convolutional residual networks, with constants the theory does "
+    "not give. The reference exponent is a reference line, not a forecast, and a measured exponent is quoted "
+    "only with its interval and its verdict."
 )
 
 
@@ -185,7 +192,7 @@ def write_report(out_dir: str, title: str, sections: list, summary: dict, *, sav
              f"<header class='mr-band'><div class='mr-mark'>manireg report</div><h1>{html.escape(title)}</h1>"
              f"<dl>{band}</dl></header><main>",
              "<p class='mr-note'>Every number on this page is also in summary.json beside this file.</p>",
-             f"<p class='mr-warn'>{html.escape(ASYMPTOTIC_NOTE)}</p>"]
+             f"<p class='mr-warn'>{html.escape(summary.get('note') or ASYMPTOTIC_NOTE)}</p>"]
     figure_files = []
     for i, sec in enumerate(sections, start=1):
         parts.append(f"<section><h2><span class='mr-num'>{i:02d}</span>{html.escape(sec.title)}</h2>")
@@ -314,9 +321,68 @@ def theory_table_frame(fits, theory):
     return pd.DataFrame(rows)
 
 
+def classification_table_frame(metric_fits: dict):
+    """One row per metric and learner: the measured exponent with its interval and verdict, the floor and the
+    repeats (values are formatted text)."""
+    import pandas as pd
+
+    rows = []
+    for metric, fits in metric_fits.items():
+        for f in fits:
+            lo, hi = f.interval
+            rows.append({
+                "metric": style.plain_label(metric),
+                "learner": f.learner,
+                "exponent": style.fmt_number(f.exponent),
+                f"{int(round(100 * f.level))}% interval": style.fmt_interval(lo, hi),
+                "verdict": f.verdict,
+                "error floor": f"{style.fmt_number(f.floor)} ({f.floor_source})",
+                "repeats": f.n_repeats,
+            })
+    return pd.DataFrame(rows)
+
+
+def _classification_parts(sec, summary, rows, metric_fits, reference):
+    """The classification part of the learning-curves section: per metric the verdicts, one table, one figure;
+    the reference exponent of the excess logistic risk with its source, conditions and scope."""
+    import pandas as pd
+
+    from . import plots
+
+    for metric, fits in metric_fits.items():
+        for f in fits:
+            sec.verdicts.append((f"{f.learner} ({style.plain_label(metric)})", f.verdict, style.exponent_text(f, 3),
+                                 f.verdict_reason))
+    sec.tables.append(("Exponents of the classification metrics (measured, with interval and verdict)",
+                       classification_table_frame(metric_fits)))
+    summary["classification_exponents"] = {m: {f.learner: f.to_dict() for f in fits} for m, fits in metric_fits.items()}
+    limited = [dict(metric=m, learner=f.learner, **c) for m, fits in metric_fits.items() for f in fits
+               for c in f.optimisation_limited]
+    summary["optimisation_limited"] = limited
+    if reference:
+        b = reference["predicted_exponent"]
+        sec.paragraphs.append(
+            f"Reference exponent of the excess logistic risk: {reference['formula']} = {style.fmt_number(b)} at "
+            f"s = {style.fmt_number(reference['smoothness'])}, d = {style.fmt_number(reference['dimension'])} "
+            f"({reference['source']}). Conditions: {reference['conditions']}. Scope: {reference['scope']}.")
+        if "excess_logistic_risk" not in metric_fits:
+            sec.paragraphs.append(
+                "The excess logistic risk needs the exact class probabilities and is not measured on these data; "
+                "the test cross-entropy's exponent with a fitted floor (the unknown Bayes risk) is the closest "
+                "measured quantity.")
+        summary["classification_reference"] = reference
+    for metric, fits in metric_fits.items():
+        label = style.plain_label(metric)
+        sec.figures.append((f"learning_curves_{metric}",
+                            plots.plot_learning_curves(rows, fits, metric=metric, show_predicted=False, show_ambient=False,
+                                                       title=f"Learning curves: {label}"),
+                            f"{label[0].upper()}{label[1:]} against n: every repeat (small marks), size means (large "
+                            "marks), fitted curve (solid), fitted floor (dash-dot), optimisation-limited cells (x)."))
+
+
 def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campaign=None, fits=None, plan=None,
                    plan_note: str | None = None, extrapolation=None, settings: dict | None = None,
-                   true_dimension=None, theory=None):
+                   true_dimension=None, theory=None, classification=None, classification_reference=None):
     """Turn finished result objects into report sections and the JSON summary of a campaign.
 
     Parameters
@@ -329,6 +395,13 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
     plan : SamplePlan, optional; ``plan_note`` says why there is none.
     extrapolation : list of ExtrapolationCheck, optional
     settings : dict of settings and seeds.
+    classification : dict {metric: list of ExponentFit}, optional
+        Fits of a classification campaign, one list per metric column (``test_error_rate``, ...): the
+        learning-curves section shows each with interval and verdict and one figure per metric, and
+        ``summary["classification_exponents"]`` holds them.
+    classification_reference : dict, optional
+        The reference exponent of the excess logistic risk (keys formula, smoothness, dimension,
+        predicted_exponent, source, conditions, scope), shown and kept as ``summary["classification_reference"]``.
 
     Returns
     -------
@@ -418,6 +491,9 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
             sec.tables.append(("Failed cells", failed[["learner", "n", "repeat", "error"]]))
         summary["campaign"] = campaign.to_dict()
         summary["rows"] = ok.drop(columns=[c for c in ("config_json",) if c in ok]).to_dict(orient="records")
+        if classification:
+            _classification_parts(sec, summary, rows, classification, classification_reference)
+            summary["note"] = CLASSIFICATION_NOTE
         if fits is not None and len(fits):
             for f in fits:
                 sec.verdicts.append((f.learner, f.verdict, style.exponent_text(f, 3), f.verdict_reason))

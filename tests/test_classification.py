@@ -139,6 +139,52 @@ def test_cli_classify_bad_labels_exit_2_and_keep_the_store(tmp_path, capsys):
                  "--dimension", "2", "--no-geometry", "--quiet"]) == 2
 
 
+def test_cli_classify_writes_the_report(tmp_path, monkeypatch):
+    # A small labelled table through `manireg curves --task classify`: report.html, summary.json with each
+    # classification metric's exponents (interval and verdict), the reference exponent with its source, and
+    # figure legends that read the same numbers as summary.json.
+    import json
+
+    import manireg.plots
+
+    drawn = []
+    original = manireg.plots.plot_learning_curves
+
+    def recording(rows, fits=None, **kw):
+        fig = original(rows, fits, **kw)
+        drawn.append((kw.get("metric"), [t.get_text() for t in fig.axes[0].get_legend().get_texts()]))
+        return fig
+
+    monkeypatch.setattr(manireg.plots, "plot_learning_curves", recording)
+    c = make_classification(sphere(700, d=2, ambient_dim=4, seed=0), n_classes=2, temperature=0.3, seed=1)
+    path = tmp_path / "labels.csv"
+    pd.DataFrame(c.X, columns=["a", "b", "c", "e"]).assign(label=np.where(c.y == 1, "yes", "no")).to_csv(path, index=False)
+    out = tmp_path / "out"
+    assert main(["curves", str(path), "--target", "label", "--task", "classify", "--dimension", "2", "--no-geometry",
+                 "--sizes", "40", "80", "160", "320", "--repeats", "3", "--learners", "knn_classifier", "logistic",
+                 "--out", str(out), "--quiet"]) == 0
+    page = (out / "report.html").read_text()
+    summary = json.loads((out / "summary.json").read_text())
+    fits = summary["classification_exponents"]
+    # no Bayes probabilities in a data file: the excess risks are not measured, the other three are
+    assert list(fits) == ["test_error_rate", "test_cross_entropy", "calibration_error"]
+    for metric, per_learner in fits.items():
+        assert sorted(per_learner) == ["knn_classifier", "logistic"]
+        for f in per_learner.values():
+            lo, hi = f["interval"]
+            assert lo <= f["exponent"] <= hi and f["verdict"] in VERDICTS
+    ref = summary["classification_reference"]
+    assert ref["predicted_exponent"] == pytest.approx(logistic_excess_risk_exponent(1.0, 2.0))
+    assert "Liu" in ref["source"] and "convolutional residual" in page and "Liu" in page
+    assert summary["figures"] == [f"learning_curves_{m}.png" for m in fits]
+    # each figure's legend: "learner: exponent e [lo, hi], verdict" with summary.json's numbers
+    assert [m for m, _ in drawn] == list(fits)
+    for metric, legend in drawn:
+        expected = [f"{name}: exponent {f['exponent']:.2f} [{f['interval'][0]:.2f}, {f['interval'][1]:.2f}], {f['verdict']}"
+                    for name, f in fits[metric].items()]
+        assert legend == expected, (metric, legend)
+
+
 def test_logistic_reference_exponent():
     # s / (2s + 2 max(s, d)) (Liu, Chen, Zhao, Liao, ICML 2021, abstract)
     assert logistic_excess_risk_exponent(1.0, 2.0) == pytest.approx(1 / 6)

@@ -12,8 +12,11 @@ from .report import write
 HELP = "run or resume a learning-curve campaign on a data file and write its report"
 REGRESS = ("net", "knn", "kernel_ridge")
 CLASSIFY = ("net_classifier", "knn_classifier", "logistic")
-#: metrics a classification campaign fits, with the floor of each fit (the Bayes risk is unknown on real data)
-CLASSIFY_METRICS = ("test_error_rate", "test_cross_entropy")
+#: metrics a classification campaign fits (those with values in the rows), with the floor of each fit: the
+#: error rate and cross-entropy level off at the Bayes risk (unknown on real data: fitted); the excess risks
+#: and the calibration error of a consistent classifier go to zero (no floor)
+CLASSIFY_METRICS = {"test_error_rate": "fit", "excess_error_rate": None, "excess_logistic_risk": None,
+                    "test_cross_entropy": "fit", "calibration_error": None}
 
 
 def add_parser(sub):
@@ -183,7 +186,21 @@ def run(args) -> int:
     result = campaign.run(executor=executor, n_jobs=args.workers, scheduler=args.scheduler, progress=not args.quiet,
                           metadata=extra)
     if classify:
-        return classification_read_out(result, args.seed)
+        metric_fits = classification_read_out(result, args.seed)
+        settings = report_parts(result, "fit", {
+            "seed": args.seed, "sizes": campaign.data.sizes, "repeats": args.repeats, "task": "classify",
+            "learners": [l.name for l in campaign.data.learners], "precision": args.precision,
+            "sizing_constants": sizing or None})
+        settings["floor"] = {m: ("fitted (the Bayes risk is unknown)" if f == "fit" else "none (goes to zero)")
+                             for m, f in CLASSIFY_METRICS.items() if m in metric_fits}
+        settings.pop("noise_estimate", None)
+        settings.pop("noise_estimate_interval", None)
+        write(out, f"manireg curves: {os.path.basename(args.data)} (classification)",
+              data={"source": args.data, "target": args.target, "n_samples": table.n_samples, "ambient_dim": D,
+                    "classes": ", ".join(f"{c!r} ({k})" for c, k in zip(table.classes, table.counts))},
+              geometry=geo, campaign=result, settings=settings, classification=metric_fits,
+              classification_reference=classification_reference(result.smoothness, result.dimension))
+        return 0
     iv = result.noise_estimate_interval
     say(f"noise-variance estimate (local differences, outside the test set): {result.noise_estimate:.4g}"
         + ("" if iv is None else f" [interval {iv[0]:.4g}, {iv[1]:.4g}]"))
@@ -237,20 +254,42 @@ def check_classes(table, smallest):
         )
 
 
-def classification_read_out(result, seed) -> int:
-    """Exponents with intervals and verdicts of every learner on each classification metric (floor fitted:
-    the Bayes risk of real data is unknown), printed."""
+def classification_read_out(result, seed) -> dict:
+    """Exponents with intervals and verdicts of every learner on each classification metric that has values
+    (floors of :data:`CLASSIFY_METRICS`), printed; returns ``{metric: [ExponentFit, ...]}`` for the report."""
     from ..curves.fitting import fit_exponent
     from ._common import captured_warnings
 
+    rows = result.rows
+    ok = rows[rows["status"] == "ok"] if "status" in rows else rows
+    out = {}
     say()
     with captured_warnings():
-        for metric in CLASSIFY_METRICS:
+        for metric, floor in CLASSIFY_METRICS.items():
+            if metric not in ok or not ok[metric].notna().any():
+                continue
+            out[metric] = []
             for learner in result.learners:
                 try:
-                    fit = fit_exponent(result.rows, learner, metric=metric, floor="fit", seed=seed)
+                    fit = fit_exponent(rows, learner, metric=metric, floor=floor, seed=seed)
                 except ValueError as exc:
                     say(f"{learner} {metric}: no fit ({exc})")
                     continue
                 say(f"[{metric}] {fit}")
-    return 0
+                out[metric].append(fit)
+    return out
+
+
+def classification_reference(smoothness, dimension) -> dict:
+    """The reference exponent of the excess logistic risk at the campaign's s and d, with its source,
+    conditions and scope, for the report."""
+    from ..theory.classification import (LOGISTIC_RATE_CONDITIONS, LOGISTIC_RATE_SOURCE,
+                                         logistic_excess_risk_exponent)
+
+    return {"metric": "excess_logistic_risk", "formula": "s / (2s + 2 max(s, d))", "smoothness": float(smoothness),
+            "dimension": float(dimension),
+            "predicted_exponent": float(logistic_excess_risk_exponent(float(smoothness), max(float(dimension), 1.0))),
+            "source": LOGISTIC_RATE_SOURCE, "conditions": LOGISTIC_RATE_CONDITIONS,
+            "scope": ("an upper bound, up to log factors, stated for convolutional residual networks: it is not a "
+                      "prediction for the fully connected net, the k-nearest-neighbour classifier or the logistic "
+                      "baseline, and a measured exponent above it does not contradict it")}

@@ -13,7 +13,11 @@ import numpy as np
 
 from manireg._validation import check_float
 
-__all__ = ["logistic_excess_risk_exponent", "LOGISTIC_RATE_CONDITIONS"]
+__all__ = ["logistic_excess_risk_exponent", "LOGISTIC_RATE_CONDITIONS", "LOGISTIC_RATE_SOURCE"]
+
+#: Where the rate of :func:`logistic_excess_risk_exponent` is stated.
+LOGISTIC_RATE_SOURCE = ("H. Liu, M. Chen, T. Zhao, W. Liao, \"Besov function approximation and binary classification on "
+                        "low-dimensional manifolds using convolutional residual networks\", ICML 2021; arXiv:2109.02832")
 
 #: The conditions under which the rate of :func:`logistic_excess_risk_exponent` is stated, in words.
 LOGISTIC_RATE_CONDITIONS = (
