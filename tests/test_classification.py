@@ -183,6 +183,14 @@ def test_cli_classify_writes_the_report(tmp_path, monkeypatch):
         expected = [f"{name}: exponent {f['exponent']:.2f} [{f['interval'][0]:.2f}, {f['interval'][1]:.2f}], {f['verdict']}"
                     for name, f in fits[metric].items()]
         assert legend == expected, (metric, legend)
+    # the store rebuilds the same read-out without training; `manireg plan` refuses in one line
+    assert main(["report", "--store", str(out / "campaign.sqlite"), "--out", str(tmp_path / "again"), "--quiet"]) == 0
+    again = json.loads((tmp_path / "again" / "summary.json").read_text())
+    for metric, per_learner in fits.items():
+        for name, f in per_learner.items():
+            g = again["classification_exponents"][metric][name]
+            assert g["exponent"] == pytest.approx(f["exponent"]) and g["verdict"] == f["verdict"]
+    assert main(["plan", "--store", str(out / "campaign.sqlite"), "--target-error", "0.1"]) == 2
 
 
 def test_logistic_reference_exponent():

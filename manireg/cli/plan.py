@@ -29,6 +29,9 @@ def run(args) -> int:
         raise UsageError(f"--target-error must be > 0; got {args.target_error:g}.")
     floor = parse_floor_option(args.floor)
     result = open_campaign(args)
+    if (result.spec or {}).get("task") == "classify":
+        raise UsageError(f"campaign '{result.name}' is a classification campaign; `manireg plan` inverts a regression "
+                         "curve of the test error. Read the classification exponents in its report (`manireg report --store`).")
     learners = result.learners
     learner = args.learner or (learners[0] if len(learners) == 1 else None)
     if learner is None:

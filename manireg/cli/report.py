@@ -54,6 +54,20 @@ def run(args) -> int:
     result = open_campaign(args)
     out = out_dir(args.out)
     meta = ResultStore(args.store).campaign_meta(result.name)
+    if (result.spec or {}).get("task") == "classify":
+        from .curves import CLASSIFY_METRICS, classification_read_out, classification_reference
+
+        metric_fits = classification_read_out(result, args.seed)
+        settings = {"seed": args.seed, "spec": result.spec, "task": "classify", "campaign": result.name,
+                    "store": result.store_path, "dimension": result.dimension, "smoothness": result.smoothness,
+                    "floor": {m: ("fitted (the Bayes risk is unknown)" if f == "fit" else "none (goes to zero)")
+                              for m, f in CLASSIFY_METRICS.items() if m in metric_fits}}
+        write(out, f"manireg campaign '{result.name}' (classification, rebuilt from its store)",
+              data={"source": meta.get("source", "(recorded in the store)"), "target": meta.get("target"),
+                    "n_samples": meta.get("n_total"), "ambient_dim": result.ambient_dim},
+              geometry=meta.get("geometry"), campaign=result, settings=settings, classification=metric_fits,
+              classification_reference=classification_reference(result.smoothness, result.dimension))
+        return 0
     parts = read_out(result, floor=floor, target_error=args.target_error, smoothness_range=s_range,
                      allow_unverified=args.allow_unverified, seed=args.seed)
     settings = report_parts(result, floor, {"seed": args.seed, "spec": result.spec, "smoothness_range": s_range})
