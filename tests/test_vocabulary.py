@@ -85,7 +85,9 @@ def _panel_labels():
     import numpy as np
     import pandas as pd
 
-    from manireg.widgets import CurvePanel, GeometryPanel, SizingPanel
+    from manireg.curves.learners import LearnerSpec
+    from manireg.curves.policy import PolicyCampaign
+    from manireg.widgets import CurvePanel, GeometryPanel, PolicyPanel, SizingPanel
 
     def walk(x, out):
         d = getattr(x, "description", None)
@@ -101,8 +103,12 @@ def _panel_labels():
                          for n in (50, 100, 200, 400) for r in range(3)])
     X = rng.normal(size=(300, 3))
     X[:, 2] = X[:, 0] ** 2
+    # a policy campaign that is never run: its panel's controls are built all the same
+    policy = PolicyCampaign(generator={"manifold": "sphere", "n": 600, "d": 2, "ambient_dim": 4, "n_actions": 2,
+                                       "seed": 0}, sizes=[120, 240], repeats=1, test_size=200,
+                            learners=[LearnerSpec("policy", params={"method": "dr", "max_steps": 5})])
     labels = set()
-    for panel in (SizingPanel(), CurvePanel(rows, n_boot=20), GeometryPanel(X, auto=False)):
+    for panel in (SizingPanel(), CurvePanel(rows, n_boot=20), GeometryPanel(X, auto=False), PolicyPanel(policy)):
         walk(panel, labels)
     return labels
 
