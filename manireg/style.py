@@ -316,6 +316,11 @@ def predicted_text(value, digits: int = 2) -> str:
 # ------------------------------------------------------------------------------------------- labels
 #: Code names that can reach a screen, in plain words.
 PLAIN_LABELS = {
+    "ess": "effective sample size",
+    "value_se": "standard error of the value",
+    "value_estimate": "value estimate (doubly robust)",
+    "clipped_share": "share of clipped weights",
+    "policy_value": "true policy value",
     # learning-curve rows and metrics
     "test_mse": "test error (MSE)",
     "test_mse_clean": "error against the noise-free target",

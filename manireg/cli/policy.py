@@ -120,8 +120,19 @@ def run(args) -> int:
     failed = int((result.rows["status"] != "ok").sum()) if len(result.rows) else 0
     if failed:
         say(f"warning: {failed} cell(s) failed; their errors are in the store (run again to retry them).")
+    from .. import style
+
     table = result.value_table()
-    say("\n" + table.to_string(index=False, float_format=lambda v: f"{v:.4g}"))
+    if table[["regret", "policy_value"]].isna().all().all():
+        say("\n(regret and true policy value need the true rewards of synthetic data; a table of logged data gives "
+            "the value estimates)")
+        table = table.drop(columns=["regret", "policy_value"])
+    shown = table.copy()
+    for c in shown.columns:
+        if shown[c].dtype.kind == "f":
+            shown[c] = [style.fmt_number(v, 4) for v in shown[c]]
+    shown.columns = [style.plain_label(c) for c in shown.columns]
+    say("\n" + shown.to_string(index=False))
     fits = None
     if result.truth:
         fits = result.fit_all(seed=args.seed)
