@@ -236,3 +236,101 @@ class Panel(widgets.VBox):
 
     def results(self):  # pragma: no cover - overridden
         raise NotImplementedError
+
+
+class BackgroundRun:
+    """Run, pause and resume a campaign in a background thread: the part the curve and the policy panels share.
+
+    The panel sets ``campaign`` (an object with ``run(progress=, stop=, on_unit=)`` and ``progress()``),
+    ``start_button``, ``pause_button``, ``progress`` and ``progress_label``, calls :meth:`_init_run` in its
+    ``__init__``, and provides ``refresh()`` and ``_fit_text()`` (the fit summary appended to the final status,
+    or ""). ``run_noun`` names the work in status lines; ``extra_buttons`` are disabled while a run is going.
+    """
+
+    run_noun = "campaign"
+    extra_buttons = ()
+
+    def _init_run(self):
+        import threading
+
+        self.running = False
+        self.run_message = None
+        self._thread = None
+        self._stop = threading.Event()
+
+    def start(self):
+        """Run the missing cells in a background thread (returns at once)."""
+        import threading
+
+        from ._look import style_progress
+
+        if self.campaign is None:
+            self._set_error("start", ValueError(f"this panel shows stored rows; pass a {self.run_source} to run cells."))
+            return
+        if self.running:
+            return
+        self._stop.clear()
+        self.running = True
+        self.start_button.disabled = True
+        self.pause_button.disabled = False
+        for name in self.extra_buttons:
+            getattr(self, name).disabled = True
+        style_progress(self.progress, "running")
+        self._thread = threading.Thread(target=self._worker, name=f"manireg-{self.run_noun.replace(' ', '-')}-panel",
+                                        daemon=True)
+        self._thread.start()
+
+    def pause(self):
+        """Stop after the unit in flight; finished cells stay in the store (start again to resume)."""
+        self._stop.set()
+        self.pause_button.disabled = True
+        if self.running:
+            self._set_busy("pausing after the work unit in flight")
+
+    def wait(self, timeout=None) -> bool:
+        """Block until the background run ends (for scripts and tests); True when it has ended."""
+        if self._thread is not None:
+            self._thread.join(timeout)
+            return not self._thread.is_alive()
+        return True
+
+    def _run_status(self, p) -> str:
+        return f"{self.run_noun} run: {p['finished']} of {p['total']} cells finished, {p['remaining']} remain"
+
+    def _worker(self):
+        from ._look import style_progress
+
+        campaign = self.campaign
+        try:
+            p = campaign.progress()
+            if p["finished"]:
+                self.run_message = (f"resumed: found {p['finished']} finished cells of {p['total']}; "
+                                    f"{p['remaining']} remain")
+            else:
+                self.run_message = f"started: {p['total']} cells to run"
+            self._set_busy(self.run_message)
+
+            def on_unit(rows):
+                self.refresh()
+                if not self._stop.is_set():
+                    self._set_busy(self._run_status(campaign.progress()))
+
+            campaign.run(progress=False, stop=self._stop, on_unit=on_unit)
+        except Exception as exc:  # noqa: BLE001 - shown in the panel
+            self._set_error(f"the {self.run_noun} run", exc)
+        finally:
+            self.running = False
+            self.start_button.disabled = False
+            self.pause_button.disabled = True
+            for name in self.extra_buttons:
+                getattr(self, name).disabled = False
+            paused = self._stop.is_set()
+            self.refresh()
+            if paused:
+                style_progress(self.progress, "paused")
+                self.progress_label.value += " (paused)"
+            if self.error is None:
+                p = campaign.progress()
+                head = ("paused: " if paused and p["remaining"] else "") + self._run_status(p)
+                fit = self._fit_text()
+                self._set_status(head + ("; " + fit if fit else ""))

@@ -26,7 +26,7 @@ import ipywidgets as widgets
 
 from .._results import ResultMixin
 from ..curves.noise import NoiseLevel
-from ._base import Panel, fmt, fmt_count, fmt_interval, plain_number, table_html
+from ._base import BackgroundRun, Panel, fmt, fmt_count, fmt_interval, plain_number, table_html
 from ._look import WARNING_PREFIX, caption_html, colour_span, style_button, style_progress, title_html
 
 __all__ = ["CurvePanel", "CurveResults", "METRIC_LABELS", "MODEL_LABELS"]
@@ -72,7 +72,7 @@ class CurveResults(ResultMixin):
     _skip_in_dict = ("rows",)
 
 
-class CurvePanel(Panel):
+class CurvePanel(BackgroundRun, Panel):
     """Learning curves of a campaign with a live fit, its verdict and the sample planner.
 
     Parameters
@@ -115,6 +115,11 @@ class CurvePanel(Panel):
     """
 
     title = "Learning curves"
+    run_noun = "campaign"
+    run_source = "Campaign"
+
+    def _fit_text(self) -> str:
+        return "" if self.fit is None else self._fit_status(self.fit)
 
     def __init__(self, source, *, dimension=None, smoothness=None, ambient_dim=None, target_error=None, n_boot=1000,
                  seed=0, learner=None, floor=None, noise_estimate=None):
@@ -127,10 +132,7 @@ class CurvePanel(Panel):
         self.campaign = None
         self.fit = self.plan = None
         self.fits = {}
-        self.running = False
-        self.run_message = None
-        self._thread = None
-        self._stop = threading.Event()
+        self._init_run()
         self._lock = threading.RLock()
         self._quiet = False
         meta = {}
@@ -175,7 +177,6 @@ class CurvePanel(Panel):
         true_variance = plain_number(meta.get("noise_variance"))
         style = {"description_width": "170px"}
         lay = widgets.Layout(width="330px")
-        check = widgets.Layout(width="150px")
 
         self.start_button = style_button(widgets.Button(description="Start / resume", disabled=self.campaign is None,
                                                         layout=widgets.Layout(width="150px")), "run")
@@ -328,72 +329,6 @@ class CurvePanel(Panel):
         full = (lo, hi) == (self.n_range.options[0][1], self.n_range.options[-1][1])
         return {"metric": self.metric.value, "n_range": None if full else (lo, hi), "n_boot": int(self.n_boot.value),
                 "seed": int(self.seed.value), **self.theory(), "floor": floor, **extra}
-
-    # ------------------------------------------------------------------ running
-    def start(self):
-        """Run the missing cells in a background thread (returns at once)."""
-        if self.campaign is None:
-            self._set_error("start", ValueError("this panel shows stored rows; pass a Campaign to run cells."))
-            return
-        if self.running:
-            return
-        self._stop.clear()
-        self.running = True
-        self.start_button.disabled = True
-        self.pause_button.disabled = False
-        style_progress(self.progress, "running")
-        self._thread = threading.Thread(target=self._worker, name="manireg-curve-panel", daemon=True)
-        self._thread.start()
-
-    def pause(self):
-        """Stop after the unit in flight; finished cells stay in the store (start again to resume)."""
-        self._stop.set()
-        self.pause_button.disabled = True
-        if self.running:
-            self._set_busy("pausing after the work unit in flight")
-
-    def wait(self, timeout=None) -> bool:
-        """Block until the background run ends (for scripts and tests); True when it has ended."""
-        if self._thread is not None:
-            self._thread.join(timeout)
-            return not self._thread.is_alive()
-        return True
-
-    def _run_status(self, p) -> str:
-        return f"campaign run: {p['finished']} of {p['total']} cells finished, {p['remaining']} remain"
-
-    def _worker(self):
-        campaign = self.campaign
-        try:
-            p = campaign.progress()
-            if p["finished"]:
-                self.run_message = (f"resumed: found {p['finished']} finished cells of {p['total']}; "
-                                    f"{p['remaining']} remain")
-            else:
-                self.run_message = f"started: {p['total']} cells to run"
-            self._set_busy(self.run_message)
-
-            def on_unit(rows):
-                self.refresh()
-                if not self._stop.is_set():
-                    self._set_busy(self._run_status(campaign.progress()))
-
-            campaign.run(progress=False, stop=self._stop, on_unit=on_unit)
-        except Exception as exc:  # noqa: BLE001 - shown in the panel
-            self._set_error("the campaign run", exc)
-        finally:
-            self.running = False
-            self.start_button.disabled = False
-            self.pause_button.disabled = True
-            paused = self._stop.is_set()
-            self.refresh()
-            if paused:
-                style_progress(self.progress, "paused")
-                self.progress_label.value += " (paused)"
-            if self.error is None:
-                p = campaign.progress()
-                head = ("paused: " if paused and p["remaining"] else "") + self._run_status(p)
-                self._set_status(head + ("" if self.fit is None else "; " + self._fit_status(self.fit)))
 
     # ------------------------------------------------------------------ updates
     def refresh(self):

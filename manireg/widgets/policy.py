@@ -21,7 +21,7 @@ from dataclasses import dataclass, field
 import ipywidgets as widgets
 
 from .._results import ResultMixin
-from ._base import Panel, fmt, fmt_count, fmt_interval, table_html
+from ._base import BackgroundRun, Panel, fmt, fmt_count, fmt_interval, table_html
 from ._look import caption_html, colour_span, style_button, style_progress, title_html
 from .curves import _plain_reason
 
@@ -44,7 +44,7 @@ class PolicyResults(ResultMixin):
     _skip_in_dict = ("rows",)
 
 
-class PolicyPanel(Panel):
+class PolicyPanel(BackgroundRun, Panel):
     """Regret curves, overlap view and the learned policy of a policy campaign.
 
     Parameters
@@ -71,6 +71,12 @@ class PolicyPanel(Panel):
     """
 
     title = "Policy campaign"
+    run_noun = "policy campaign"
+    run_source = "PolicyCampaign"
+    extra_buttons = ("map_button",)
+
+    def _fit_text(self) -> str:
+        return self._fit_status()
 
     def __init__(self, source, *, learner=None, n_boot=1000, seed=0, max_points=2000):
         super().__init__()
@@ -81,10 +87,7 @@ class PolicyPanel(Panel):
         self.fits, self.unfitted, self.overlap = {}, {}, {}
         self.policy_map = None
         self.max_points = int(max_points)
-        self.running = False
-        self.run_message = None
-        self._thread = None
-        self._stop = threading.Event()
+        self._init_run()
         self._lock = threading.RLock()
         self._quiet = False
         if isinstance(source, PolicyCampaign):
@@ -175,76 +178,6 @@ class PolicyPanel(Panel):
     def fit_settings(self) -> dict:
         """Keyword arguments of ``PolicyResult.fit_all`` from the controls."""
         return {"n_boot": int(self.n_boot.value), "seed": int(self.seed.value)}
-
-    # ------------------------------------------------------------------ running
-    def start(self):
-        """Run the missing cells in a background thread (returns at once)."""
-        if self.campaign is None:
-            self._set_error("start", ValueError("this panel shows stored rows; pass a PolicyCampaign to run cells."))
-            return
-        if self.running:
-            return
-        self._stop.clear()
-        self.running = True
-        self.start_button.disabled = True
-        self.pause_button.disabled = False
-        self.map_button.disabled = True
-        style_progress(self.progress, "running")
-        self._thread = threading.Thread(target=self._worker, name="manireg-policy-panel", daemon=True)
-        self._thread.start()
-
-    def pause(self):
-        """Stop after the unit in flight; finished cells stay in the store (start again to resume)."""
-        self._stop.set()
-        self.pause_button.disabled = True
-        if self.running:
-            self._set_busy("pausing after the work unit in flight")
-
-    def wait(self, timeout=None) -> bool:
-        """Block until the background run ends (for scripts and tests); True when it has ended."""
-        if self._thread is not None:
-            self._thread.join(timeout)
-            return not self._thread.is_alive()
-        return True
-
-    @staticmethod
-    def _run_status(p) -> str:
-        return f"policy campaign run: {p['finished']} of {p['total']} cells finished, {p['remaining']} remain"
-
-    def _worker(self):
-        campaign = self.campaign
-        try:
-            p = campaign.progress()
-            if p["finished"]:
-                self.run_message = (f"resumed: found {p['finished']} finished cells of {p['total']}; "
-                                    f"{p['remaining']} remain")
-            else:
-                self.run_message = f"started: {p['total']} cells to run"
-            self._set_busy(self.run_message)
-
-            def on_unit(rows):
-                self.refresh()
-                if not self._stop.is_set():
-                    self._set_busy(self._run_status(campaign.progress()))
-
-            campaign.run(progress=False, stop=self._stop, on_unit=on_unit)
-        except Exception as exc:  # noqa: BLE001 - shown in the panel
-            self._set_error("the policy campaign run", exc)
-        finally:
-            self.running = False
-            self.start_button.disabled = False
-            self.pause_button.disabled = True
-            self.map_button.disabled = False
-            paused = self._stop.is_set()
-            self.refresh()
-            if paused:
-                style_progress(self.progress, "paused")
-                self.progress_label.value += " (paused)"
-            if self.error is None:
-                p = campaign.progress()
-                head = ("paused: " if paused and p["remaining"] else "") + self._run_status(p)
-                fit = self._fit_status()
-                self._set_status(head + ("; " + fit if fit else ""))
 
     # ------------------------------------------------------------------ updates
     def refresh(self):
