@@ -238,6 +238,24 @@ class Panel(widgets.VBox):
         raise NotImplementedError
 
 
+def set_choices(panel, dropdown, options, preferred=()):
+    """Give ``dropdown`` these options without firing the panel's update: keep the current choice when it is
+    still offered, else the first of ``preferred`` that is, else the first option."""
+    options = list(options)
+    if list(dropdown.options) == options:
+        return
+    panel._quiet = True
+    try:
+        current = dropdown.value
+        dropdown.options = options
+        if current in options:
+            dropdown.value = current
+        elif options:
+            dropdown.value = next((c for c in preferred if c in options), options[0])
+    finally:
+        panel._quiet = False
+
+
 class BackgroundRun:
     """Run, pause and resume a campaign in a background thread: the part the curve and the policy panels share.
 

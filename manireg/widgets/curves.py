@@ -26,7 +26,7 @@ import ipywidgets as widgets
 
 from .._results import ResultMixin
 from ..curves.noise import NoiseLevel
-from ._base import BackgroundRun, Panel, fmt, fmt_count, fmt_interval, plain_number, table_html
+from ._base import BackgroundRun, Panel, set_choices, fmt, fmt_count, fmt_interval, plain_number, table_html
 from ._look import WARNING_PREFIX, caption_html, colour_span, style_button, style_progress, title_html
 
 __all__ = ["CurvePanel", "CurveResults", "METRIC_LABELS", "MODEL_LABELS"]
@@ -346,18 +346,7 @@ class CurvePanel(BackgroundRun, Panel):
             self.progress_label.value = f"{done} of {self.cells_total} cells finished"
             if done >= self.cells_total:
                 style_progress(self.progress, "done")
-            learners = self._learners()
-            if list(self.learner.options) != learners:
-                self._quiet = True
-                try:
-                    current = self.learner.value
-                    self.learner.options = learners
-                    if current in learners:
-                        self.learner.value = current
-                    elif learners:
-                        self.learner.value = "net" if "net" in learners else learners[0]
-                finally:
-                    self._quiet = False
+            set_choices(self, self.learner, self._learners(), preferred=("net",))
             if len(self.metric.options) < 2 and self._has_clean():
                 self._quiet = True
                 try:

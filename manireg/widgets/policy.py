@@ -21,7 +21,7 @@ from dataclasses import dataclass, field
 import ipywidgets as widgets
 
 from .._results import ResultMixin
-from ._base import BackgroundRun, Panel, fmt, fmt_count, fmt_interval, table_html
+from ._base import BackgroundRun, Panel, set_choices, fmt, fmt_count, fmt_interval, table_html
 from ._look import caption_html, colour_span, style_button, style_progress, title_html
 from .curves import _plain_reason
 
@@ -195,19 +195,7 @@ class PolicyPanel(BackgroundRun, Panel):
             self.progress_label.value = f"{done} of {self.cells_total} cells finished"
             if done >= self.cells_total:
                 style_progress(self.progress, "done")
-            learners = self._learners()
-            if list(self.learner.options) != learners:
-                self._quiet = True
-                try:
-                    current = self.learner.value
-                    self.learner.options = learners
-                    if current in learners:
-                        self.learner.value = current
-                    elif learners:
-                        first = self._first if self._first in learners else "dr"
-                        self.learner.value = first if first in learners else learners[0]
-                finally:
-                    self._quiet = False
+            set_choices(self, self.learner, self._learners(), preferred=(self._first, "dr"))
             self.update_fits()
             self.update_overlap()
 
