@@ -32,6 +32,28 @@ def _locate_nonfinite(arr: np.ndarray, limit: int = 5) -> str:
     return f"{len(bad)} non-finite value(s) (NaN or inf) at index {where}{more}"
 
 
+def _as_float(X, name: str, prefix: str, fix: str) -> np.ndarray:
+    """``X`` as float64, refusing what a silent cast would get wrong (sparse, complex, non-numeric)."""
+    if hasattr(X, "tocsr") or hasattr(X, "todense"):
+        raise DataValidationError(
+            f"{prefix}{name} is a sparse matrix ({type(X).__name__}); manireg works on dense arrays. "
+            f"Pass {name}.toarray() (or reduce the columns first if that does not fit in memory)."
+        )
+    dtype = getattr(X, "dtype", None)
+    if dtype is None:
+        X = np.asarray(X)
+        dtype = X.dtype
+    if np.issubdtype(np.dtype(dtype) if not hasattr(dtype, "kind") else dtype, np.complexfloating):
+        raise DataValidationError(
+            f"{prefix}{name} holds complex numbers; casting them to real would drop the imaginary part. "
+            f"Pass real features, e.g. np.column_stack([{name}.real, {name}.imag])."
+        )
+    try:
+        return np.asarray(X, dtype=np.float64)
+    except (TypeError, ValueError) as exc:
+        raise DataValidationError(f"{prefix}{name} must be numeric; could not convert it to float ({exc}). {fix}") from None
+
+
 def check_points(X, *, name: str = "X", min_samples: int = 2, owner: str | None = None) -> np.ndarray:
     """Return ``X`` as a C-contiguous float64 array of shape (n_samples, n_features).
 
@@ -39,13 +61,7 @@ def check_points(X, *, name: str = "X", min_samples: int = 2, owner: str | None 
     inf (with how many and where), or fewer than ``min_samples`` rows.
     """
     prefix = f"{owner}: " if owner else ""
-    try:
-        arr = np.asarray(X, dtype=np.float64)
-    except (TypeError, ValueError) as exc:
-        raise DataValidationError(
-            f"{prefix}{name} must be numeric; could not convert it to float ({exc}). "
-            "Drop or encode non-numeric columns first."
-        ) from None
+    arr = _as_float(X, name, prefix, "Drop or encode non-numeric columns first.")
     if arr.ndim == 1:
         raise DataValidationError(
             f"{prefix}{name} must be 2-D (n_samples, n_features); got a 1-D array of length {arr.shape[0]}. "
@@ -72,10 +88,7 @@ def check_points(X, *, name: str = "X", min_samples: int = 2, owner: str | None 
 def check_target(y, n_samples: int, *, name: str = "y", owner: str | None = None) -> np.ndarray:
     """Return ``y`` as a float64 vector of length ``n_samples`` (a (n, 1) column is accepted)."""
     prefix = f"{owner}: " if owner else ""
-    try:
-        arr = np.asarray(y, dtype=np.float64)
-    except (TypeError, ValueError) as exc:
-        raise DataValidationError(f"{prefix}{name} must be numeric ({exc}).") from None
+    arr = _as_float(y, name, prefix, "Pass one numeric target column.")
     if arr.ndim == 2 and arr.shape[1] == 1:
         arr = arr[:, 0]
     if arr.ndim != 1:
