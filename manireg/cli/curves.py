@@ -144,15 +144,23 @@ def run(args) -> int:
     if classify:
         check_classes(table, sizes[0])
     out = out_dir(args.out)
+    store = args.store or os.path.join(out, "campaign.sqlite")
     geo = None
     if args.on_disk and not args.no_geometry:
         from ..geometry.ondisk import describe_geometry_on_disk
 
-        disk_geo = describe_geometry_on_disk(table, seed=args.seed)
+        disk_geo = stored_geometry(store, table.fingerprint(), {"read-out": "on disk", "seed": args.seed},
+                                   lambda: describe_geometry_on_disk(table, seed=args.seed))
         say(str(disk_geo))
         consensus = disk_geo.consensus
     elif not args.no_geometry:
-        geo = describe(table.X, table.y, seed=args.seed, view=not args.no_view, progress=not args.quiet)
+        from ..geometry.neighbors import data_fingerprint
+
+        geo = stored_geometry(store, data_fingerprint(table.X),
+                              {"read-out": "in memory", "seed": args.seed, "view": not args.no_view, "n_boot": 200},
+                              lambda: describe(table.X, table.y, seed=args.seed, view=not args.no_view,
+                                               progress=not args.quiet, n_boot=200))
+        geo.target = table.y  # colours the 2-D view; the store's key is the features' fingerprint only
         say(str(geo.dimension))
         consensus = geo.dimension.consensus
     d = args.dimension if args.dimension is not None else working_dimension(consensus)
@@ -164,7 +172,6 @@ def run(args) -> int:
             s = 1.0
         else:
             s = estimated_smoothness(X, y, args.seed)
-    store = args.store or os.path.join(out, "campaign.sqlite")
     name = args.campaign or "campaign"
     learners = learner_specs(args.learners, args.width_multipliers, args.precision, sizing)
     campaign = Campaign(X=X, y=y, sizes=args.sizes, repeats=args.repeats, learners=learners,
@@ -214,6 +221,54 @@ def run(args) -> int:
           data={"source": args.data, "target": args.target, "n_samples": table.n_samples, "ambient_dim": D},
           geometry=geo, campaign=result, settings=settings, **parts)
     return 0
+
+
+class _Tee:
+    """Writes through to ``out`` and keeps the complete lines written."""
+
+    def __init__(self, out):
+        self.out, self.lines, self._part = out, [], ""
+
+    def write(self, text):
+        self.out.write(text)
+        self._part += text
+        *done, self._part = self._part.split("\n")
+        self.lines.extend(done)
+        return len(text)
+
+    def flush(self):
+        self.out.flush()
+
+
+def stored_geometry(store_path, fingerprint, settings, compute):
+    """The geometry read-out of the campaign's store when the same data (``fingerprint``) was read with the
+    same ``settings`` before; otherwise ``compute()``, kept in the store (with the warning lines it printed,
+    shown again when it is read back). Says in one line which."""
+    import contextlib
+    import sys
+
+    from ..curves.store import ResultStore, geometry_key
+    from ..style import WARNING_PREFIX
+
+    try:
+        rs = ResultStore(store_path)
+    except ValueError as exc:  # StoreError: the campaign opens it again and says so with the fix
+        raise UsageError(str(exc)) from None
+    key = geometry_key(fingerprint, settings)
+    hit = rs.geometry(key)
+    if hit is not None:
+        result, notes, created = hit
+        say(f"geometry read-out: read from the store {store_path} (same data and settings, computed {created}); "
+            "a change of data or settings computes it again")
+        for line in notes:
+            say(line)
+        return result
+    tee = _Tee(sys.stdout)
+    with contextlib.redirect_stdout(tee):
+        result = compute()
+    notes = [line for line in tee.lines if line.startswith(WARNING_PREFIX)]
+    rs.put_geometry(key, result, fingerprint=fingerprint, settings=settings, notes=notes)
+    return result
 
 
 def load_labelled(args):
