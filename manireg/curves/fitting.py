@@ -1279,6 +1279,9 @@ def fit_exponent(
         beaten=beaten, cv=cv, preferred=preferred, fl=fl, c0=c0, m=m, floor_shift=floor_shift, margin=margin,
         b0=b0,
     )
+    unsure = _unsure_floor(fl, m)
+    if unsure and "the floor is unsure" not in reason:
+        reason = unsure + reason  # whatever the verdict, a floor that can bend the curve is said first
     if dropped:
         reason += (f" {len(dropped)} size(s) with mean error at or below the floor {fl.value:.4g} were dropped "
                    f"(n = {', '.join(format(d_['n'], 'g') for d_ in dropped)}); the floor may be too high.")
@@ -1329,14 +1332,14 @@ def _verdict(*, sizes, sizes_all, min_decades, sub, equivalence, pct, beaten, cv
     unsure = _unsure_floor(fl, m)
     if beaten:
         trend = "flattens" if equivalence["difference"] < 0 else "steepens"
-        return VERDICT_NOT_POWER_LAW, unsure + (
+        return VERDICT_NOT_POWER_LAW, (
             f"over {rng_txt} the single power law is beaten on held-out sizes by the {preferred} (leave-one-size-out "
             f"error {cv[preferred]:.3g} against {cv['power law']:.3g}); the curve {trend} ({halves}). See the "
             "exponent scan." + (" An unknown error floor would do this; try floor='estimate' with a noise estimate."
                                 if fl.model == "loglog" and trend == "flattens" else ""))
     if equivalence["different"]:
         trend = "flattens" if equivalence["difference"] < 0 else "steepens"
-        return VERDICT_NOT_POWER_LAW, unsure + (
+        return VERDICT_NOT_POWER_LAW, (
             f"the curve {trend} over {rng_txt}: {halves}, which excludes 0 at {pct}%. See the exponent scan."
             + (" An unknown error floor would do this; try floor='estimate' with a noise estimate."
                if fl.model == "loglog" and trend == "flattens" else ""))
@@ -1359,7 +1362,7 @@ def _verdict(*, sizes, sizes_all, min_decades, sub, equivalence, pct, beaten, cv
             "floor fitted without a noise estimate can absorb a bend. Pass noise_variance=... to bound it. "
             f"Over {rng_txt}: {halves}.")
     if unsure:
-        return VERDICT_NOT_SHOWN, unsure + (
+        return VERDICT_NOT_SHOWN, (
             f"A sharper noise estimate (more data or neighbours) or a known floor would decide. Over {rng_txt}: {halves}.")
     if not equivalence["equivalent"]:
         return VERDICT_NOT_SHOWN, (
