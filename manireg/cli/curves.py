@@ -146,20 +146,22 @@ def run(args) -> int:
     out = out_dir(args.out)
     store = args.store or os.path.join(out, "campaign.sqlite")
     geo = None
+    keep_geometry = lambda: None  # noqa: E731 - stores a computed geometry read-out once the campaign is built
     if args.on_disk and not args.no_geometry:
         from ..geometry.ondisk import describe_geometry_on_disk
 
-        disk_geo = stored_geometry(store, table.fingerprint(), {"read-out": "on disk", "seed": args.seed},
-                                   lambda: describe_geometry_on_disk(table, seed=args.seed))
+        disk_geo, keep_geometry = stored_geometry(store, table.fingerprint(), {"read-out": "on disk", "seed": args.seed},
+                                                  lambda: describe_geometry_on_disk(table, seed=args.seed))
         say(str(disk_geo))
         consensus = disk_geo.consensus
     elif not args.no_geometry:
         from ..geometry.neighbors import data_fingerprint
 
-        geo = stored_geometry(store, data_fingerprint(table.X),
-                              {"read-out": "in memory", "seed": args.seed, "view": not args.no_view, "n_boot": 200},
-                              lambda: describe(table.X, table.y, seed=args.seed, view=not args.no_view,
-                                               progress=not args.quiet, n_boot=200))
+        geo, keep_geometry = stored_geometry(store, data_fingerprint(table.X),
+                                             {"read-out": "in memory", "seed": args.seed, "view": not args.no_view,
+                                              "n_boot": 200},
+                                             lambda: describe(table.X, table.y, seed=args.seed, view=not args.no_view,
+                                                              progress=not args.quiet, n_boot=200))
         geo.target = table.y  # colours the 2-D view; the store's key is the features' fingerprint only
         say(str(geo.dimension))
         consensus = geo.dimension.consensus
@@ -178,6 +180,7 @@ def run(args) -> int:
                         dimension=d, smoothness=s, seed=args.seed, name=name, store=store, task=args.task,
                         dimension_source="given" if args.dimension is not None else "geometry read-out (rounded consensus)",
                         dimension_interval=None if geo is None or args.dimension is not None else dimension_range(geo.dimension))
+    keep_geometry()  # after the campaign's settings are checked: a refused setting leaves no store behind
     extra = {"source": args.data, "target": args.target}
     if geo is not None:
         extra["geometry"] = geo.to_dict()
@@ -242,33 +245,37 @@ class _Tee:
 
 def stored_geometry(store_path, fingerprint, settings, compute):
     """The geometry read-out of the campaign's store when the same data (``fingerprint``) was read with the
-    same ``settings`` before; otherwise ``compute()``, kept in the store (with the warning lines it printed,
-    shown again when it is read back). Says in one line which."""
+    same ``settings`` before (the warning lines it printed then are shown again); otherwise ``compute()``.
+    Returns ``(result, keep)``: ``keep()`` stores a computed read-out (a no-op for one read back); call it once
+    the campaign's settings are checked. Says in one line when the read-out comes from the store."""
     import contextlib
     import sys
 
     from ..curves.store import ResultStore, geometry_key
     from ..style import WARNING_PREFIX
 
-    try:
-        rs = ResultStore(store_path)
-    except ValueError as exc:  # StoreError: the campaign opens it again and says so with the fix
-        raise UsageError(str(exc)) from None
     key = geometry_key(fingerprint, settings)
-    hit = rs.geometry(key)
-    if hit is not None:
-        result, notes, created = hit
-        say(f"geometry read-out: read from the store {store_path} (same data and settings, computed {created}); "
-            "a change of data or settings computes it again")
-        for line in notes:
-            say(line)
-        return result
+    if os.path.isfile(store_path):
+        try:
+            hit = ResultStore(store_path).geometry(key)
+        except ValueError as exc:  # StoreError: unreadable, unwritable or from a newer manireg
+            raise UsageError(str(exc)) from None
+        if hit is not None:
+            result, notes, created = hit
+            say(f"geometry read-out: read from the store {store_path} (same data and settings, computed {created}); "
+                "a change of data or settings computes it again")
+            for line in notes:
+                say(line)
+            return result, lambda: None
     tee = _Tee(sys.stdout)
     with contextlib.redirect_stdout(tee):
         result = compute()
     notes = [line for line in tee.lines if line.startswith(WARNING_PREFIX)]
-    rs.put_geometry(key, result, fingerprint=fingerprint, settings=settings, notes=notes)
-    return result
+
+    def keep():
+        ResultStore(store_path).put_geometry(key, result, fingerprint=fingerprint, settings=settings, notes=notes)
+
+    return result, keep
 
 
 def load_labelled(args):
