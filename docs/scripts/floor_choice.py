@@ -10,7 +10,7 @@ every cell, nested training sets within a repeat (prefixes of one shuffled pool)
 * the exponent of the noisy test error ``test_mse`` with the floor none / fit / estimate / the true value,
   each with its verdict (m = measured, s = not shown at this precision, n = not a power law).
 
-Run: python docs/scripts/floor_choice.py            (about 4 minutes on a busy 2-core machine)
+Run: python docs/scripts/floor_choice.py            (4 to 9 minutes on a busy 2-core machine)
      python docs/scripts/floor_choice.py --quick    (one noise level)
 """
 
