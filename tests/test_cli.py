@@ -54,7 +54,9 @@ def test_campaign_writes_report_consistent_with_core(finished_campaign):
     from manireg.curves import Campaign
 
     res = Campaign.from_store(out / "campaign.sqlite")
-    core = res.fit("knn", floor="estimate", smoothness=1.0, seed=0)
+    from manireg.curves.floors import DEFAULT_FLOOR
+
+    core = res.fit("knn", floor=DEFAULT_FLOOR, smoothness=1.0, seed=0)
     rep = summary["exponents"]["knn"]
     assert rep["exponent"] == pytest.approx(core.exponent, rel=1e-9)
     assert rep["verdict"] == core.verdict and rep["interval"] == pytest.approx(list(core.interval))

@@ -67,7 +67,18 @@ def test_network_exponent_reported_with_interval_and_verdict():
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # fewer than 5 repeats warns
         fit = campaign.run(progress=False).fit("net", floor="estimate")
+    from scipy.stats import t
+
     assert np.all(np.isfinite(fit.interval)) and fit.interval[0] <= fit.exponent <= fit.interval[1]
+    # 3 repeats: Student t with 2 degrees of freedom (scipy.stats, the reference library) times the standard
+    # error, and the reason says why the interval is wide
+    lo, hi = fit.interval
+    assert (hi - lo) / 2 == pytest.approx(t.ppf(0.975, 2) * fit.standard_error, rel=1e-9)
+    assert "wide for a reason" in fit.verdict_reason
+    # 100..1600 is 1.2 decades: enough range, so a verdict other than "measured" must name another cause
     assert fit.verdict in VERDICTS
+    if fit.verdict != VERDICT_MEASURED:
+        assert any(w in fit.verdict_reason for w in ("floor is unsure", "beaten", "flattens", "steepens",
+                                                     "not shown equivalent")), fit.verdict_reason
     text = str(fit)
     assert "interval" in text and "verdict" in text and fit.verdict_reason in text

@@ -114,14 +114,21 @@ def test_plan_bad_target():
 # extrapolation_check
 # ---------------------------------------------------------------------------------------------------
 def test_extrapolation_on_power_law_is_accurate():
-    # judge a fitted curve by forecasting held-out larger n: Alabdulmohsin, Neyshabur, Zhai, NeurIPS 2022
-    check = extrapolation_check(make_curve(b=0.5, seed=26), holdout=1)
-    (row,) = check.table
-    assert row["n"] == 10_000
-    assert abs(row["relative_error"]) < 0.08
-    assert row["inside_band"]
-    assert check.fit.n_range[1] < 10_000
-    assert len(check.to_frame()) == 1
+    # judge a fitted curve by forecasting held-out larger n: Alabdulmohsin, Neyshabur, Zhai, NeurIPS 2022.
+    # 60 exact power laws (b = 0.5, 8 repeats, 10% log scatter per cell) with the largest size held out: the
+    # forecast is unbiased (closed form: the truth is n^-0.5), and the held-out mean lies inside its 95%
+    # prediction interval. Measured relative-error sd 0.047, so |mean| < 0.02 is 3 standard errors
+    # (0.047 / sqrt(60) = 0.006); binomial sd of a 0.95 rate over 60 runs is 0.028, so a rate below 0.865
+    # (0.95 - 3 sd) fails.
+    inside, rel = [], []
+    for seed in range(60):
+        check = extrapolation_check(make_curve(b=0.5, seed=1000 + seed), holdout=1)
+        (row,) = check.table
+        assert row["n"] == 10_000 and check.fit.n_range[1] < 10_000 and len(check.to_frame()) == 1
+        inside.append(row["inside_band"])
+        rel.append(row["relative_error"])
+    assert abs(np.mean(rel)) < 0.02
+    assert np.mean(inside) >= 0.865
 
 
 def test_extrapolation_without_floor_undershoots():

@@ -59,18 +59,18 @@ def test_exact_tangents_never_underestimate_the_sphere():
 
 
 def test_noise_degrades_gracefully_and_quantile_is_more_stable():
-    # Source: sphere reach = radius (REFERENCES.md). Noise lowers the infimum; a low quantile should stay closer.
-    inf_err, q_err = [], []
-    for seed in (0, 1):
+    # Source: sphere reach = radius = 1 (REFERENCES.md, closed form). Noise lowers the infimum of the per-point
+    # values; a low quantile of them should stay closer to the truth, on every seed, and neither may leave the
+    # band from half the true reach to 10% above it (a collapse to the noise scale, 0.02, or an estimate above
+    # the truth would fail).
+    for seed in (0, 1, 2):
         smp = sphere(2000, 2, radius=1.0, ambient_dim=5, noise=0.02, seed=seed)
         e_inf = estimate_reach(smp.points, 2)
         e_q = estimate_reach(smp.points, 2, quantile=0.05)
-        assert np.isfinite(e_inf.reach) and e_inf.reach > 0
-        assert np.isfinite(e_q.reach) and e_q.reach >= e_inf.reach
         assert np.all(np.isfinite(e_q.per_point))
-        inf_err.append(abs(e_inf.reach - 1.0))
-        q_err.append(abs(e_q.reach - 1.0))
-    assert np.mean(q_err) < np.mean(inf_err)
+        for est in (e_inf, e_q):
+            assert 0.5 < est.reach < 1.1, (seed, est.reach)
+        assert abs(e_q.reach - 1.0) < abs(e_inf.reach - 1.0), seed
 
 
 def test_flat_data_has_infinite_reach():

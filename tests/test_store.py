@@ -1,5 +1,6 @@
 """The result store: resume after SIGKILL, concurrent writers, no duplicates, no lost rows, clear errors."""
 
+import json
 import os
 import signal
 import subprocess
@@ -235,3 +236,103 @@ def test_store_from_a_newer_version_is_refused_unchanged(tmp_path):
     with pytest.raises(StoreError, match="newer manireg"):
         ResultStore(path)
     assert os.path.getsize(path) == size
+
+
+# ------------------------------------------------------------------ stores of schema 1 and the geometry cache
+FIXTURE_V1 = os.path.join(os.path.dirname(__file__), "data", "store_schema_1.sqlite")
+
+
+def test_schema_1_store_gains_the_geometry_table_and_keeps_every_row(tmp_path):
+    import shutil
+    import sqlite3
+
+    from manireg.curves.store import SCHEMA_VERSION, geometry_key
+
+    path = str(tmp_path / "v1.sqlite")
+    shutil.copy(FIXTURE_V1, path)  # written by schema 1 (12 ok rows of campaign "v1"), before the geometry table
+    before = sqlite3.connect(path).execute("SELECT COUNT(*), SUM(test_mse) FROM cells").fetchone()
+    store = ResultStore(path)
+    assert not os.path.exists(path + ".before-migration")  # an added table rewrites nothing: no copy
+    rows = store.rows("v1")
+    assert len(rows) == before[0] == 12 and rows["test_mse"].sum() == pytest.approx(before[1])
+    assert store.campaign_meta("v1")["dimension"] == 2.0
+    assert sqlite3.connect(path).execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION == 2
+    key = geometry_key("abc", {"seed": 0})
+    assert store.geometry(key) is None
+    assert store.put_geometry(key, {"x": np.arange(3)}, fingerprint="abc", settings={"seed": 0}, notes=["warning: w"])
+    got, notes, _ = ResultStore(path).geometry(key)
+    assert np.array_equal(got["x"], np.arange(3)) and notes == ["warning: w"]
+
+
+def test_geometry_read_out_round_trips_through_the_store(tmp_path):
+    from manireg.curves.store import decode_result, encode_result
+    from manireg.data import sphere
+    from manireg.geometry import describe_geometry
+
+    X = sphere(300, 2, ambient_dim=6, seed=1).points
+    with pytest.warns(UserWarning):
+        geo = describe_geometry(X, embed=False, n_boot=20, seed=0)
+    store = ResultStore(tmp_path / "g.sqlite")
+    assert store.put_geometry("k", geo, fingerprint="f", settings={})
+    back, _, _ = store.geometry("k")
+    assert type(back) is type(geo) and type(back.dimension) is type(geo.dimension)
+    assert back.to_dict() == geo.to_dict() and str(back) == str(geo)
+    assert np.array_equal(back.assignments, geo.assignments) and back.assignments.dtype == geo.assignments.dtype
+    assert np.array_equal(back.reach.per_point, geo.reach.per_point, equal_nan=True)
+    # anything that is not a manireg result, an array or a plain value is refused, never pickled
+    assert not store.put_geometry("bad", {"f": open}, fingerprint="f", settings={})
+    with pytest.raises(ValueError, match="not a manireg module"):
+        decode_result({"__dataclass__": "os:PathLike", "fields": {}})
+    assert decode_result(encode_result((1, np.float32(2.5), {3: "a"}))) == (1, np.float32(2.5), {3: "a"})
+
+
+def test_second_curves_run_reads_the_geometry_from_the_store(tmp_path, monkeypatch, capsys):
+    import manireg.cli.geometry as cli_geometry
+    from manireg.cli import main
+    from manireg.data import make_regression, sphere
+
+    reg = make_regression(sphere(400, 2, ambient_dim=6, seed=3), 1.0, noise_std=0.1, seed=4)
+    df = pd.DataFrame(reg.X, columns=[f"x{j}" for j in range(6)])
+    df["y"] = reg.y
+    csv = tmp_path / "d.csv"
+    df.to_csv(csv, index=False)
+    real = cli_geometry.describe
+    calls = []
+
+    def counting(*a, **kw):
+        calls.append(kw)
+        return real(*a, **kw)
+
+    monkeypatch.setattr(cli_geometry, "describe", counting)
+    argv = ["curves", str(csv), "--target", "y", "--sizes", "50", "100", "200", "--repeats", "2", "--learners", "knn",
+            "--no-view", "--quiet", "--smoothness", "1", "--out", str(tmp_path / "o")]
+    assert main(argv) == 0
+    first = capsys.readouterr().out
+    assert len(calls) == 1
+
+    def refuse(*a, **kw):
+        raise AssertionError("the geometry read-out was computed again")
+
+    monkeypatch.setattr(cli_geometry, "describe", refuse)
+    assert main(argv) == 0
+    second = capsys.readouterr().out
+    assert "read from the store" in second
+    summary = json.loads((tmp_path / "o" / "summary.json").read_text())
+    consensus = summary["geometry"]["dimension"]["consensus"]
+    # the same consensus line as the first run (the stored read-out is the computed one)
+    line = [ln for ln in first.splitlines() if "consensus" in ln][0]
+    assert line in second and consensus is not None
+    # a changed setting (--seed) or changed data computes it again (stopped right there: nothing else to check)
+    class Recomputed(BaseException):
+        pass
+
+    def stop(*a, **kw):
+        raise Recomputed
+
+    monkeypatch.setattr(cli_geometry, "describe", stop)
+    with pytest.raises(Recomputed):
+        main(argv + ["--seed", "1"])
+    df.loc[0, "x0"] += 1e-3
+    df.to_csv(csv, index=False)
+    with pytest.raises(Recomputed):
+        main(argv)

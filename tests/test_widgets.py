@@ -336,7 +336,7 @@ def test_curve_panel_default_fit_is_the_campaign_default(finished_campaign):
     assert stored.noise_estimate == result.noise_estimate
     for source in (finished_campaign, result, stored):
         panel = CurvePanel(source)
-        assert panel.floor.value == DEFAULT_FLOOR == "estimate"
+        assert panel.floor.value == DEFAULT_FLOOR == "fit"
         assert panel.error is None, panel.error
         for name in ("net", "knn"):
             ref = result.fit(name)

@@ -144,15 +144,25 @@ def run(args) -> int:
     if classify:
         check_classes(table, sizes[0])
     out = out_dir(args.out)
+    store = args.store or os.path.join(out, "campaign.sqlite")
     geo = None
+    keep_geometry = lambda: None  # noqa: E731 - stores a computed geometry read-out once the campaign is built
     if args.on_disk and not args.no_geometry:
         from ..geometry.ondisk import describe_geometry_on_disk
 
-        disk_geo = describe_geometry_on_disk(table, seed=args.seed)
+        disk_geo, keep_geometry = stored_geometry(store, table.fingerprint(), {"read-out": "on disk", "seed": args.seed},
+                                                  lambda: describe_geometry_on_disk(table, seed=args.seed))
         say(str(disk_geo))
         consensus = disk_geo.consensus
     elif not args.no_geometry:
-        geo = describe(table.X, table.y, seed=args.seed, view=not args.no_view, progress=not args.quiet)
+        from ..geometry.neighbors import data_fingerprint
+
+        geo, keep_geometry = stored_geometry(store, data_fingerprint(table.X),
+                                             {"read-out": "in memory", "seed": args.seed, "view": not args.no_view,
+                                              "n_boot": 200},
+                                             lambda: describe(table.X, table.y, seed=args.seed, view=not args.no_view,
+                                                              progress=not args.quiet, n_boot=200))
+        geo.target = table.y  # colours the 2-D view; the store's key is the features' fingerprint only
         say(str(geo.dimension))
         consensus = geo.dimension.consensus
     d = args.dimension if args.dimension is not None else working_dimension(consensus)
@@ -164,13 +174,13 @@ def run(args) -> int:
             s = 1.0
         else:
             s = estimated_smoothness(X, y, args.seed)
-    store = args.store or os.path.join(out, "campaign.sqlite")
     name = args.campaign or "campaign"
     learners = learner_specs(args.learners, args.width_multipliers, args.precision, sizing)
     campaign = Campaign(X=X, y=y, sizes=args.sizes, repeats=args.repeats, learners=learners,
                         dimension=d, smoothness=s, seed=args.seed, name=name, store=store, task=args.task,
                         dimension_source="given" if args.dimension is not None else "geometry read-out (rounded consensus)",
                         dimension_interval=None if geo is None or args.dimension is not None else dimension_range(geo.dimension))
+    keep_geometry()  # after the campaign's settings are checked: a refused setting leaves no store behind
     extra = {"source": args.data, "target": args.target}
     if geo is not None:
         extra["geometry"] = geo.to_dict()
@@ -214,6 +224,58 @@ def run(args) -> int:
           data={"source": args.data, "target": args.target, "n_samples": table.n_samples, "ambient_dim": D},
           geometry=geo, campaign=result, settings=settings, **parts)
     return 0
+
+
+class _Tee:
+    """Writes through to ``out`` and keeps the complete lines written."""
+
+    def __init__(self, out):
+        self.out, self.lines, self._part = out, [], ""
+
+    def write(self, text):
+        self.out.write(text)
+        self._part += text
+        *done, self._part = self._part.split("\n")
+        self.lines.extend(done)
+        return len(text)
+
+    def flush(self):
+        self.out.flush()
+
+
+def stored_geometry(store_path, fingerprint, settings, compute):
+    """The geometry read-out of the campaign's store when the same data (``fingerprint``) was read with the
+    same ``settings`` before (the warning lines it printed then are shown again); otherwise ``compute()``.
+    Returns ``(result, keep)``: ``keep()`` stores a computed read-out (a no-op for one read back); call it once
+    the campaign's settings are checked. Says in one line when the read-out comes from the store."""
+    import contextlib
+    import sys
+
+    from ..curves.store import ResultStore, geometry_key
+    from ..style import WARNING_PREFIX
+
+    key = geometry_key(fingerprint, settings)
+    if os.path.isfile(store_path):
+        try:
+            hit = ResultStore(store_path).geometry(key)
+        except ValueError as exc:  # StoreError: unreadable, unwritable or from a newer manireg
+            raise UsageError(str(exc)) from None
+        if hit is not None:
+            result, notes, created = hit
+            say(f"geometry read-out: read from the store {store_path} (same data and settings, computed {created}); "
+                "a change of data or settings computes it again")
+            for line in notes:
+                say(line)
+            return result, lambda: None
+    tee = _Tee(sys.stdout)
+    with contextlib.redirect_stdout(tee):
+        result = compute()
+    notes = [line for line in tee.lines if line.startswith(WARNING_PREFIX)]
+
+    def keep():
+        ResultStore(store_path).put_geometry(key, result, fingerprint=fingerprint, settings=settings, notes=notes)
+
+    return result, keep
 
 
 def load_labelled(args):

@@ -1279,6 +1279,9 @@ def fit_exponent(
         beaten=beaten, cv=cv, preferred=preferred, fl=fl, c0=c0, m=m, floor_shift=floor_shift, margin=margin,
         b0=b0,
     )
+    unsure = _unsure_floor(fl, m)
+    if unsure and "the floor is unsure" not in reason:
+        reason = unsure + reason  # whatever the verdict, a floor that can bend the curve is said first
     if dropped:
         reason += (f" {len(dropped)} size(s) with mean error at or below the floor {fl.value:.4g} were dropped "
                    f"(n = {', '.join(format(d_['n'], 'g') for d_ in dropped)}); the floor may be too high.")
@@ -1326,6 +1329,7 @@ def _verdict(*, sizes, sizes_all, min_decades, sub, equivalence, pct, beaten, cv
     if decades < min_decades:
         return VERDICT_NOT_POWER_LAW, (f"the range actually fitted, {rng_txt}, is below {min_decades:g} decade(s); "
                                        "a slope over less than a decade cannot be called a power law. Add sizes.")
+    unsure = _unsure_floor(fl, m)
     if beaten:
         trend = "flattens" if equivalence["difference"] < 0 else "steepens"
         return VERDICT_NOT_POWER_LAW, (
@@ -1357,6 +1361,9 @@ def _verdict(*, sizes, sizes_all, min_decades, sub, equivalence, pct, beaten, cv
             f"the fitted floor {c0:.4g} carries more than half of the smallest mean error and nothing bounds it: a "
             "floor fitted without a noise estimate can absorb a bend. Pass noise_variance=... to bound it. "
             f"Over {rng_txt}: {halves}.")
+    if unsure:
+        return VERDICT_NOT_SHOWN, (
+            f"A sharper noise estimate (more data or neighbours) or a known floor would decide. Over {rng_txt}: {halves}.")
     if not equivalence["equivalent"]:
         return VERDICT_NOT_SHOWN, (
             f"over {rng_txt} the halves are not shown equivalent within +-{margin:g}: {halves}. More repeats or "
@@ -1364,6 +1371,27 @@ def _verdict(*, sizes, sizes_all, min_decades, sub, equivalence, pct, beaten, cv
     return VERDICT_MEASURED, (
         f"over {rng_txt} the single power law is not beaten on held-out sizes and the halves are equivalent "
         f"within +-{margin:g} (two one-sided tests): {halves}.")
+
+
+#: A floor whose allowed range is wider than this share of the smallest mean error is called unsure.
+UNSURE_FLOOR_SHARE = 0.5
+
+
+def _unsure_floor(fl, m) -> str:
+    """A sentence starting the reason when the floor's interval (an estimate's interval, or the bounds of a
+    fitted floor) is wide against the smallest mean error: then the floor alone can bend or straighten the
+    curve, whatever the verdict. Empty otherwise."""
+    ends = fl.interval if fl.model == "excess" else (
+        (fl.c_low, fl.c_high) if fl.model == "floor_fit" and fl.c_high is not None else None)
+    if ends is None:
+        return ""
+    smallest = float(np.min(m))
+    width = float(ends[1]) - float(ends[0])
+    if not (np.isfinite(width) and width > UNSURE_FLOOR_SHARE * smallest):
+        return ""
+    return (f"the floor is unsure: its interval [{ends[0]:.4g}, {ends[1]:.4g}] is wider than "
+            f"{UNSURE_FLOOR_SHARE:g} x the smallest mean error {smallest:.4g}, so the floor alone can bend the curve; "
+            "what follows may come from the floor. ")
 
 
 def _fmt_iv(iv, fmt=".3f"):

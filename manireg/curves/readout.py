@@ -14,7 +14,7 @@ import warnings as _warnings
 from dataclasses import dataclass, field
 
 from manireg._results import ResultMixin
-from manireg.curves.floors import choose_floor
+from manireg.curves.floors import DEFAULT_FLOOR, choose_floor
 
 __all__ = ["ReadOut", "read_out", "learner_kind_of"]
 
@@ -88,7 +88,7 @@ class ReadOut(ResultMixin):
 
 
 def read_out(rows, *, dimension, dimension_interval=None, smoothness, ambient_dim=None, noise_estimate=None,
-             floor="estimate", target_error=None, learner_kinds=None, seed=0, metric="test_mse", level=0.95,
+             floor=DEFAULT_FLOOR, target_error=None, learner_kinds=None, seed=0, metric="test_mse", level=0.95,
              allow_unverified=False) -> ReadOut:
     """Fit every learner, compare each with its own reference rate, check extrapolation and plan.
 
@@ -106,7 +106,7 @@ def read_out(rows, *, dimension, dimension_interval=None, smoothness, ambient_di
         Ambient dimension ``D``.
     noise_estimate : float or NoiseEstimate, optional
         The campaign's noise estimate (needed by ``floor="estimate"``; bounds ``floor="fit"``).
-    floor : None, "fit", "estimate" or float
+    floor : None, "fit", "estimate" or float, default=DEFAULT_FLOOR ("fit")
         See :func:`choose_floor`.
     target_error : float, optional
         The plan's target; default: halve the fitted excess error at the largest measured size.

@@ -14,8 +14,13 @@ Properties the execution layer relies on:
   smoothness, ambient dimension and package versions, so a report can be rebuilt from the file alone.
 * **Versioned**: ``PRAGMA user_version`` holds the schema version. A store written before campaigns had
   their name is migrated in place when opened (a copy of the file is kept beside it first, and every row is
-  kept, its key recomputed under the new field names so a resumed campaign finds it); a store from a newer
-  manireg is refused.
+  kept, its key recomputed under the new field names so a resumed campaign finds it); a store of schema 1
+  gains the geometry table; a store from a newer manireg is refused.
+* **Geometry read-outs cached**: the ``geometry`` table keeps the geometry read-out of the campaign's data
+  keyed by the data's fingerprint, the read-out's settings and the manireg version
+  (:func:`geometry_key`, :meth:`ResultStore.geometry`), so a second run of the same command does not compute
+  it again. The read-out is stored as tagged JSON (dataclasses of manireg, arrays with dtype and shape) and
+  read back into the same objects; nothing is unpickled.
 
 References
 ----------
@@ -34,7 +39,7 @@ import sqlite3
 
 from manireg.curves.sweep import ROW_COLUMNS
 
-__all__ = ["ResultStore", "StoreError", "SCHEMA_VERSION"]
+__all__ = ["ResultStore", "StoreError", "SCHEMA_VERSION", "geometry_key", "encode_result", "decode_result"]
 
 _TYPES = {
     "key": "TEXT PRIMARY KEY", "campaign": "TEXT NOT NULL", "learner": "TEXT NOT NULL", "n": "INTEGER NOT NULL",
@@ -47,8 +52,9 @@ _TYPES = {
     "config_json": "TEXT", "test_cross_entropy": "REAL", "excess_logistic_risk": "REAL", "test_error_rate": "REAL",
     "excess_error_rate": "REAL", "calibration_error": "REAL",
 }
-#: Schema version written to ``PRAGMA user_version``; 0 is a store from before the campaign vocabulary.
-SCHEMA_VERSION = 1
+#: Schema version written to ``PRAGMA user_version``; 0 is a store from before the campaign vocabulary,
+#: 1 one without the geometry table.
+SCHEMA_VERSION = 2
 
 
 class StoreError(ValueError):
@@ -131,11 +137,10 @@ class ResultStore:
                 f"reads up to {SCHEMA_VERSION}). Upgrade manireg to read it; the file was not changed."
             )
         self._check_writable()
-        if version < SCHEMA_VERSION:
-            from manireg.curves.migrate import LEGACY_TABLE, migrate_store
+        from manireg.curves.migrate import GEOMETRY_TABLE_SQL, LEGACY_TABLE, migrate_store
 
-            if _has_table(self.path, LEGACY_TABLE):
-                migrate_store(self.path)
+        if version < SCHEMA_VERSION and (version >= 1 or _has_table(self.path, LEGACY_TABLE)):
+            migrate_store(self.path)
         with self._connect() as con:
             cols = ", ".join(f'"{c}" {_TYPES[c]}' for c in ROW_COLUMNS)
             con.execute(f"CREATE TABLE IF NOT EXISTS cells ({cols})")
@@ -150,6 +155,7 @@ class ResultStore:
                 "CREATE TABLE IF NOT EXISTS campaigns (campaign TEXT PRIMARY KEY, spec_json TEXT, fingerprint TEXT, "
                 "dimension REAL, smoothness REAL, ambient_dim INTEGER, meta_json TEXT, created_at TEXT, updated_at TEXT)"
             )
+            con.execute(GEOMETRY_TABLE_SQL)
             con.execute(f"PRAGMA user_version = {SCHEMA_VERSION}")
 
     def __repr__(self):
@@ -309,6 +315,158 @@ class ResultStore:
         if r is None:
             raise KeyError(f"the store {self.path!r} holds no campaign {campaign!r}; it holds {self.campaigns()}.")
         return json.loads(r[0])
+
+    # ------------------------------------------------------------------ geometry read-outs
+    def put_geometry(self, key: str, result, *, fingerprint: str, settings: dict, notes=()) -> bool:
+        """Keep a geometry read-out under ``key`` (from :func:`geometry_key`); ``notes`` are the warning lines
+        shown when it was computed (shown again when it is read back). Returns False, storing nothing, when
+        the result holds a value the tagged JSON cannot carry (see :func:`encode_result`)."""
+        import zlib
+
+        try:
+            blob = zlib.compress(json.dumps(encode_result(result), allow_nan=True).encode(), 6)
+        except TypeError:
+            return False
+        from manireg import __version__
+
+        with self._connect() as con:
+            con.execute("BEGIN IMMEDIATE")
+            try:
+                con.execute("INSERT OR REPLACE INTO geometry VALUES (?, ?, ?, ?, ?, ?, ?)",
+                            (key, fingerprint, json.dumps(settings, sort_keys=True), __version__, blob,
+                             json.dumps([str(n) for n in notes]), _now()))
+                con.execute("COMMIT")
+            except BaseException:
+                con.execute("ROLLBACK")
+                raise
+        return True
+
+    def geometry(self, key: str):
+        """``(result, notes, created_at)`` of a stored geometry read-out, or None when none is stored under
+        ``key`` or the stored one no longer matches this version's result classes (then it is computed again
+        and replaced)."""
+        import zlib
+
+        with self._connect() as con:
+            r = con.execute("SELECT summary, notes_json, created_at FROM geometry WHERE key = ?", (key,)).fetchone()
+        if r is None:
+            return None
+        try:
+            result = decode_result(json.loads(zlib.decompress(r[0]).decode()))
+        except (ValueError, TypeError, KeyError, AttributeError, ImportError, zlib.error):
+            return None
+        return result, json.loads(r[1] or "[]"), r[2]
+
+
+def geometry_key(fingerprint: str, settings: dict) -> str:
+    """The key of a geometry read-out: SHA-256 of the data's fingerprint, the read-out's settings (seed, view,
+    resamples, given dimension or radius, ...) and the manireg version, in canonical JSON."""
+    import hashlib
+
+    from manireg import __version__
+
+    text = json.dumps({"fingerprint": str(fingerprint), "settings": settings, "manireg": __version__},
+                      sort_keys=True, default=str)
+    return hashlib.sha256(text.encode()).hexdigest()
+
+
+# ---------------------------------------------------------------------- tagged JSON of result objects
+def encode_result(value):
+    """A JSON-ready form of a result object that :func:`decode_result` turns back into an equal object.
+
+    Dataclasses of manireg (every field, including those ``to_dict`` leaves out, and attributes set after
+    construction), numpy arrays and scalars (dtype and shape kept), tuples, lists, dicts and plain values.
+
+    Raises
+    ------
+    TypeError
+        For any other object (nothing is pickled).
+    """
+    import base64
+    import dataclasses
+
+    import numpy as np
+
+    if value is None or isinstance(value, (bool, str)):
+        return value
+    if isinstance(value, (int, float)) and type(value) in (int, float):
+        return value
+    if isinstance(value, np.ndarray):
+        if value.dtype.kind not in "biufc":
+            raise TypeError(f"encode_result: arrays of dtype {value.dtype} are not stored")
+        arr = np.ascontiguousarray(value)
+        return {"__ndarray__": base64.b64encode(arr.tobytes()).decode("ascii"), "dtype": arr.dtype.str,
+                "shape": list(arr.shape)}
+    if isinstance(value, np.generic):
+        if value.dtype.kind not in "biufc":
+            raise TypeError(f"encode_result: numpy scalars of dtype {value.dtype} are not stored")
+        return {"__scalar__": value.item() if value.dtype.kind != "c" else [value.real, value.imag],
+                "dtype": value.dtype.str}
+    if isinstance(value, tuple):
+        return {"__tuple__": [encode_result(v) for v in value]}
+    if isinstance(value, list):
+        return [encode_result(v) for v in value]
+    if isinstance(value, dict):
+        return {"__dict__": [[encode_result(k), encode_result(v)] for k, v in value.items()]}
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        cls = type(value)
+        if not cls.__module__.startswith("manireg."):
+            raise TypeError(f"encode_result: {cls.__module__}.{cls.__qualname__} is not a manireg result")
+        names = [f.name for f in dataclasses.fields(value)]
+        extra = {k: v for k, v in getattr(value, "__dict__", {}).items() if k not in names}
+        return {"__dataclass__": f"{cls.__module__}:{cls.__qualname__}",
+                "fields": {k: encode_result(getattr(value, k)) for k in names},
+                "extra": {k: encode_result(v) for k, v in extra.items()}}
+    raise TypeError(f"encode_result: cannot store a {type(value).__name__}")
+
+
+def decode_result(data):
+    """The object :func:`encode_result` encoded. Only dataclasses of manireg modules are rebuilt.
+
+    Raises
+    ------
+    ValueError
+        When a stored class is not a manireg dataclass or its fields differ from this version's (a read-out
+        stored by another version of the class).
+    """
+    import base64
+    import dataclasses
+    import importlib
+
+    import numpy as np
+
+    if isinstance(data, list):
+        return [decode_result(v) for v in data]
+    if not isinstance(data, dict):
+        return data
+    if "__ndarray__" in data:
+        arr = np.frombuffer(base64.b64decode(data["__ndarray__"]), dtype=np.dtype(data["dtype"]))
+        return arr.reshape(data["shape"]).copy()
+    if "__scalar__" in data:
+        v = data["__scalar__"]
+        return np.dtype(data["dtype"]).type(complex(*v) if isinstance(v, list) else v)
+    if "__tuple__" in data:
+        return tuple(decode_result(v) for v in data["__tuple__"])
+    if "__dict__" in data:
+        return {decode_result(k): decode_result(v) for k, v in data["__dict__"]}
+    if "__dataclass__" in data:
+        module, _, qualname = data["__dataclass__"].partition(":")
+        if not module.startswith("manireg."):
+            raise ValueError(f"decode_result: {module} is not a manireg module")
+        obj = importlib.import_module(module)
+        for part in qualname.split("."):
+            obj = getattr(obj, part)
+        cls = obj
+        if not (isinstance(cls, type) and dataclasses.is_dataclass(cls)):
+            raise ValueError(f"decode_result: {data['__dataclass__']} is not a result class")
+        names = {f.name for f in dataclasses.fields(cls)}
+        if names != set(data["fields"]):
+            raise ValueError(f"decode_result: the fields of {qualname} changed since the result was stored")
+        out = cls.__new__(cls)
+        for k, v in {**data["fields"], **data.get("extra", {})}.items():
+            object.__setattr__(out, k, decode_result(v))
+        return out
+    raise ValueError("decode_result: an untagged mapping; the stored value was not written by encode_result")
 
 
 class _Conn:

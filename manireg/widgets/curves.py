@@ -7,7 +7,7 @@ how many were found and how many remain (:meth:`~manireg.curves.Campaign.progres
 are reloaded, the progress bar moves (cells finished of the total) and the curves are refitted and redrawn.
 
 The floor offers the choices of :mod:`manireg.curves.floors` (none, fitted, the campaign's noise-variance
-estimate, a value; default: the estimate) and goes through :func:`~manireg.curves.floors.choose_floor` with the
+estimate, a value; default: fitted, as floors.DEFAULT_FLOOR) and goes through :func:`~manireg.curves.floors.choose_floor` with the
 campaign's own noise estimate, so with its default controls the panel shows what ``CampaignResult.fit`` and the
 command line give for the same rows.
 
@@ -93,7 +93,7 @@ class CurvePanel(BackgroundRun, Panel):
         :func:`manireg.curves.fitting.fit_exponent`, so the panel shows what ``CampaignResult.fit`` gives).
     learner : str, optional
         Learner shown first (default: "net" when present).
-    floor : "none", "fit", "estimate" or float, default="estimate"
+    floor : "none", "fit", "estimate" or float, default=DEFAULT_FLOOR ("fit")
         Initial floor choice (:mod:`manireg.curves.floors`).
     noise_estimate : float, optional
         The noise-variance estimate of the "estimate" floor. Default: the campaign's own

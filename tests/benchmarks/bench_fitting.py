@@ -6,12 +6,15 @@ cell, and independent scatter. Prints the tables quoted in docs/fitting.md:
 
     python tests/benchmarks/bench_fitting.py            # 300 / 80 campaigns per cell (about 20 minutes on a busy 2-core machine)
     python tests/benchmarks/bench_fitting.py --quick    # fewer runs
+    python tests/benchmarks/bench_fitting.py --only verdicts --scatter 0.1   # one table
 """
 
 from __future__ import annotations
 
 import argparse
+import os
 import sys
+import time
 import warnings
 
 import numpy as np
@@ -85,12 +88,20 @@ def main(argv=None):
     ap.add_argument("--quick", action="store_true", help="200 / 40 / 100 campaigns per cell")
     ap.add_argument("--runs", type=int, default=300, help="campaigns per coverage cell")
     ap.add_argument("--verdict-runs", type=int, default=80, help="campaigns per verdict cell")
+    ap.add_argument("--only", choices=["coverage", "verdicts", "extrapolation"], help="print one table")
+    ap.add_argument("--scatter", type=float, nargs="+", default=[0.05, 0.1], help="cell scatters of the verdict tables")
     args = ap.parse_args(argv)
     runs, vruns = (200, 40) if args.quick else (args.runs, args.verdict_runs)
-    coverage_table(runs)
-    for R, sc in ((5, 0.05), (5, 0.1)):
-        verdict_table(vruns, R, sc)
-    extrapolation_table(runs // 2)
+    t0 = time.time()
+    print(f"load average at start {os.getloadavg()[0]:.1f} (a shared machine)")
+    if args.only in (None, "coverage"):
+        coverage_table(runs)
+    if args.only in (None, "verdicts"):
+        for sc in args.scatter:
+            verdict_table(vruns, 5, sc)
+    if args.only in (None, "extrapolation"):
+        extrapolation_table(runs // 2)
+    print(f"\n{time.time() - t0:.0f} s; load average {os.getloadavg()[0]:.1f}")
     return 0
 
 
