@@ -196,6 +196,16 @@ def depth_groups(rows) -> list:
     return out
 
 
+def _multiplier_of_name(name):
+    """The width multiplier a net's default name says: 1 for the bare kind, m for ``<kind>-w<m>``, else None."""
+    import re
+
+    if name in NET_KINDS:
+        return 1.0
+    m = re.fullmatch(r"(?:%s)-w(\d+(?:\.\d+)?)" % "|".join(NET_KINDS), name)
+    return float(m.group(1)) if m else None
+
+
 def capacity_by_depth(rows, *, metric="test_mse", level=0.95) -> list:
     """The capacity read-out (:func:`manireg.curves.planning.capacity_readout`: paired over shared repeats) of
     each depth group of :func:`depth_groups`: ``[(label, CapacityReadout or str)]``, a string saying why a
@@ -204,7 +214,9 @@ def capacity_by_depth(rows, *, metric="test_mse", level=0.95) -> list:
 
     out = []
     for label, learners in depth_groups(rows):
-        sub = rows[rows["learner"].astype(str).isin(learners)]
+        sub = rows[rows["learner"].astype(str).isin(learners)].copy()
+        if "width_multiplier" not in sub.columns:  # rows without it: from the names ("net" is the rule's width)
+            sub["width_multiplier"] = [_multiplier_of_name(v) for v in sub["learner"].astype(str)]
         try:
             out.append((label, capacity_readout(sub, metric=metric, level=level)))
         except ValueError as exc:

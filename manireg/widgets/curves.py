@@ -773,8 +773,9 @@ class CurvePanel(BackgroundRun, Panel):
         if ro is None:
             self.readout_html.value = colour_span(self.last_message or "", "error")
             return
-        # classification: the read-out's theory rows are the regression rates; the reference is shown above
-        skip = ("theory", "plan_note") if classify else ()
+        # the fit warnings are the status line's already; classification: the read-out's theory rows are the
+        # regression rates (the reference is shown above) and its plan sizes a regression net
+        skip = ("warnings", "theory", "plan_note") if classify else ("warnings",)
         rows = readout_rows(ro, self.learner.value, skip=skip)
         self.readout_html.value = (f"<b>read-out of {html.escape(str(self.learner.value))}</b>"
                                    + caption_html("the core read-out over every size, with this metric and floor")
