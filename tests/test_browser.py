@@ -1,7 +1,8 @@
 """Real-browser checks: the four panels served by Voila, driven by headless Chromium through playwright.
 
 One small notebook, written into a temporary folder, builds on seeded synthetic data (400 points on a
-2-sphere in R^5) a SizingPanel, a GeometryPanel, a CurvePanel of a tiny finished campaign and a WorkbenchPanel.
+2-sphere in R^5) a SizingPanel, a GeometryPanel, a CurvePanel of a tiny finished campaign, a CurvePanel whose
+size view the test uses to add nets of other widths to a copy of that campaign, and a WorkbenchPanel.
 Voila runs it once; the tests below share the page. Each test waits for its panel to render, saves an
 element screenshot to tests/artifacts/ (copied to docs/img/ for docs/panels.md) and, for the sizing,
 geometry and curve panels, changes a control in the browser and checks that the rendered text changed.
@@ -64,6 +65,15 @@ PANELS_NOTEBOOK = {
               "curves.allow_unverified.value = True\n"
               "curves.target_error.value = 0.3\n"
               "curves.add_class('mr-curve-panel')\ncurves"),
+        # the size view: the same finished campaign (a copy of its store), to which the browser adds nets at
+        # width multipliers 0.5 and 2; only their 16 cells are trained
+        _code("import shutil\n"
+              "shutil.copyfile('campaign.sqlite', 'sized.sqlite')\n"
+              "sized_campaign = Campaign(campaign.spec, store='sized.sqlite')\n"
+              "sized_campaign.data.noise_variance = campaign.data.noise_variance\n"
+              "sized = CurvePanel(sized_campaign, n_boot=200, seed=0)\n"
+              "sized.size_widths.value = '0.5, 1, 2'\n"
+              "sized.add_class('mr-size-view')\nsized"),
         _code("workbench = WorkbenchPanel(sample.X, sample.y, smoothness=1.0, campaign=campaign,\n"
               "                           geometry_kwargs={'true_dimension': 2, 'n_boot': 50})\n"
               "workbench.add_class('mr-workbench-panel')\nworkbench"),
@@ -244,7 +254,7 @@ def test_sizing_panel(page):
     wait_value_changes(panel, "width", width_before)
     assert table_value(panel, "width") != width_before
     assert table_value(panel, "parameters (dense)") != params_before
-    assert "n=50,000" in panel.inner_text()
+    panel.locator("text=n=50,000").first.wait_for()  # the status line is set after the table
     assert_no_error(panel)
     shot(panel, "sizing_panel_changed")
 
@@ -294,6 +304,26 @@ def test_curve_panel(page):
     wait_value_changes(panel, "samples needed", needed_before)
     assert table_value(panel, "samples needed") != needed_before
     assert_no_error(panel)
+
+
+def test_curve_panel_size_view(page):
+    """Add missing cells and run: the 16 cells of the two new widths are trained in the background, the old 16
+    are kept, and the capacity read-out and every width's exponent appear."""
+    panel = page.locator(".mr-size-view")
+    panel.locator("text=local slopes").first.wait_for()
+    assert "16 of 16 cells finished" in panel.inner_text()
+    assert "capacity read-out: needs nets at two or more width multipliers" in panel.inner_text()
+    panel.locator("button", has_text="Add missing cells and run").click()
+    panel.locator("text=32 of 32 cells finished").wait_for()
+    panel.locator("text=capacity read-out, c_depth 0.5").wait_for()
+    panel.locator("text=campaign run: 32 of 32 cells finished, 0 remain").wait_for()
+    text = panel.inner_text()
+    for name in ("net-w0.5", "net-w2"):
+        assert name in text
+    assert "best width multiplier" in text
+    assert_no_error(panel)
+    wait_images(panel, 2)
+    shot(panel, "curve_panel_size_view")
 
 
 def test_workbench_panel(page):

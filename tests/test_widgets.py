@@ -97,6 +97,11 @@ _SIZING_CONSTANT_LABELS = ("depth constant c_depth", "width constant c_width", "
                            "largest depth depth_max", "largest width width_max")
 
 
+def panel_calls(spy):
+    """The curve panel's own fit calls (they pass the fit range; the core read-out's fits do not)."""
+    return [c for c in spy.calls if "n_range" in c[1]]
+
+
 def status_log(panel):
     """Every value the panel's status line takes from now on."""
     log = []
@@ -367,7 +372,7 @@ def test_curve_panel_floor_choices_go_through_choose_floor(finished_campaign, mo
     exp_before = panel.fit.exponent
 
     panel.n_range.value = (48, 192)
-    args, kwargs = spy.calls[-1]
+    args, kwargs = panel_calls(spy)[-1]
     assert kwargs["n_range"] == (48, 192)
     assert panel.fit.n_range == (48, 192)
     assert panel.fit.exponent != exp_before
@@ -379,12 +384,12 @@ def test_curve_panel_floor_choices_go_through_choose_floor(finished_campaign, mo
     # the value box starts at the true noise variance of the synthetic data (0.1 ** 2)
     assert panel.floor_value.value == pytest.approx(0.01)
     panel.floor_value.value = 0.001
-    assert spy.calls[-1][1]["floor"] == 0.001 and resolve_spy.calls[-1][0][0] == 0.001
+    assert panel_calls(spy)[-1][1]["floor"] == 0.001 and resolve_spy.calls[-1][0][0] == 0.001
     panel.floor.value = "estimate"
-    kwargs = spy.calls[-1][1]
+    kwargs = panel_calls(spy)[-1][1]
     assert kwargs["floor"] == "estimate" and kwargs["noise_variance"] == result.noise_level
     panel.floor.value = "fit"
-    assert spy.calls[-1][1]["floor"] == "fit"
+    assert panel_calls(spy)[-1][1]["floor"] == "fit"
     assert "power law plus a fitted floor" in panel.exponent_html.value
 
     panel.learner.value = "knn"
@@ -395,10 +400,10 @@ def test_curve_panel_floor_choices_go_through_choose_floor(finished_campaign, mo
     # implied d follows the s control; "s unknown" passes None (no 0-sentinel)
     panel.floor.value = "none"
     panel.smoothness.value = 2.0
-    assert spy.calls[-1][1]["smoothness"] == 2.0
+    assert panel_calls(spy)[-1][1]["smoothness"] == 2.0
     assert panel.fit.predicted_exponent[0] == pytest.approx(4.0 / 6.0)  # 2s/(2s+d) at s=2, d=2
     panel.ambient_dim_unknown.value = True
-    assert spy.calls[-1][1]["ambient_dim"] is None and panel.ambient_dim.disabled
+    assert panel_calls(spy)[-1][1]["ambient_dim"] is None and panel.ambient_dim.disabled
     assert_plain_screen(panel)
 
 
@@ -475,6 +480,158 @@ def test_widget_messages_are_json_after_nan_fits(finished_campaign, monkeypatch)
     assert_json_states(sizing)
 
 
+# ------------------------------------------------------------------------------------------------- size view
+def test_size_view_adds_only_the_missing_cells(finished_campaign, tmp_path, monkeypatch):
+    """The size view adds nets at other widths and depth constants; cells already in the store are never trained
+    again (their keys are unchanged), the new ones run in the background, and the capacity read-out is the
+    core's, paired over shared repeats."""
+    import shutil
+
+    from manireg.curves.capacity import depth_groups
+    from manireg.curves.planning import CapacityReadout, capacity_readout
+
+    store = tmp_path / "copy.sqlite"  # a copy: the module's finished campaign keeps its own store
+    shutil.copy(finished_campaign.store.path, store)
+    campaign = Campaign(finished_campaign.spec, store=str(store))
+    before = {c.key for c in campaign.cells()}
+    assert campaign.progress()["remaining"] == 0
+    panel = CurvePanel(campaign, n_boot=20)
+    assert not panel.size_button.disabled and panel.size_depths.value == "0.5"  # the rule's c_depth
+    ran = []
+    real_run_unit = execution.run_unit
+
+    def recording(unit, *args, **kwargs):
+        ran.extend(c.key for c in unit)
+        return real_run_unit(unit, *args, **kwargs)
+
+    monkeypatch.setattr(execution, "run_unit", recording)
+    # depth constants are checked without training: every pair, the rule's width and depth included
+    panel.size_widths.value, panel.size_depths.value = "2, 1", "1"
+    assert [l.name for l in panel.size_learners()] == ["net", "net-w2", "net-cd1", "net-w2-cd1"]
+    panel.size_depths.value = "0.5"
+    added = panel.add_sizes()
+    assert panel.wait(timeout=300) and panel.error is None, panel.error
+    assert [l.name for l in added] == ["net-w2"]  # "net" at width 1 is the campaign's own net: not added
+    after = {c.key for c in campaign.cells()}
+    n_new = len(campaign.data.sizes) * campaign.data.repeats
+    assert before < after and len(after) == len(before) + n_new
+    assert sorted(ran) == sorted(after - before)  # only the new cells ran, each once
+    assert panel.cells_total == len(after) and panel.progress.value == len(after)
+    assert "net-w2" in panel.fits and panel.fits["net-w2"].verdict in panel.fits_html.value
+    assert f"{panel.fits['net-w2'].exponent:.3f}" in panel.fits_html.value
+    # the capacity read-out is capacity_readout on the nets of one depth setting
+    rows = campaign.result().rows
+    assert depth_groups(rows) == [("c_depth 0.5", ["net", "net-w2"])]
+    (label, ro), = panel.capacity
+    assert isinstance(ro, CapacityReadout)
+    ref = capacity_readout(rows[rows["learner"].isin(["net", "net-w2"])])
+    assert ro.table == ref.table
+    assert ref.table[0]["status"] in panel.capacity_html.value
+    # pressing again adds nothing and trains nothing
+    ran.clear()
+    assert panel.add_sizes() == [] and panel.wait(timeout=60) and not ran
+    assert "every requested net is in the campaign" in panel.status.value
+    assert_plain_screen(panel)
+    assert_json_states(panel)
+
+
+def test_size_view_needs_a_campaign_with_a_net(finished_campaign):
+    panel = CurvePanel(finished_campaign.result(), n_boot=20)
+    assert panel.size_button.disabled and panel.size_widths.disabled
+    assert panel.add_sizes() is None and "net learner" in panel.error
+
+
+# --------------------------------------------------------------------------------------------- classification
+@pytest.fixture(scope="module")
+def classify_campaign(tmp_path_factory):
+    campaign = Campaign(generator={"manifold": "sphere", "n": 500, "d": 2, "ambient_dim": 5, "n_classes": 2,
+                                   "seed": 0}, task="classify", sizes=[40, 80, 160, 320], repeats=2,
+                        learners=["knn_classifier", "logistic"], store=str(tmp_path_factory.mktemp("c") / "c.sqlite"))
+    campaign.run(progress=False)
+    return campaign
+
+
+def test_curve_panel_shows_classification_metrics(classify_campaign):
+    """A classify campaign offers the classification metrics its rows hold; each metric's exponent, interval and
+    verdict are the core read-out's (and the command line's) with the command line's floor; the excess
+    logistic risk gets the reference exponent s / (2s + 2 max(s, d))."""
+    from manireg.cli.curves import CLASSIFY_METRICS, classification_read_out
+    from manireg.curves.metrics import CLASSIFICATION_COLUMNS
+    from manireg.curves.readout import read_out
+
+    result = classify_campaign.result()
+    for source in (classify_campaign, result):
+        panel = CurvePanel(source)
+        assert panel.task == "classify" and panel.error is None, panel.error
+        assert [v for _, v in panel.metric.options][0] == "excess_logistic_risk"
+        assert {v for _, v in panel.metric.options} == {c for c in CLASSIFICATION_COLUMNS if result.rows[c].notna().any()}
+    cli = classification_read_out(result, 0)
+    for metric in ("excess_logistic_risk", "test_error_rate"):
+        panel.metric.value = metric
+        floor = CLASSIFY_METRICS[metric]
+        assert panel.floor.value == (floor or "none")
+        core = read_out(result.rows, dimension=result.dimension, smoothness=result.smoothness, metric=metric,
+                        floor=floor, seed=0)
+        for learner in ("knn_classifier", "logistic"):
+            got, ref = panel.fits[learner], core.fits[learner]
+            assert got.exponent == ref.exponent and tuple(got.interval) == tuple(ref.interval)
+            assert got.verdict == ref.verdict
+            assert got.exponent == next(f for f in cli[metric] if f.learner == learner).exponent
+            assert got.predicted_exponent is None  # no regression prediction on a classification metric
+        assert panel.readout is not None and panel.readout.fits[panel.learner.value].exponent == panel.fit.exponent
+        assert f"{panel.fit.exponent:.3f}" in panel.exponent_html.value and panel.fit.verdict in panel.fits_html.value
+    assert "none for this metric" in panel.exponent_html.value and panel.reference_exponent is None
+    panel.metric.value = "excess_logistic_risk"
+    # s / (2s + 2 max(s, d)) at s = 1, d = 2 is 1/6 (Liu, Chen, Zhao, Liao, ICML 2021, abstract)
+    assert result.smoothness == 1.0 and result.dimension == 2.0
+    assert panel.reference_exponent == pytest.approx(1.0 / 6.0)
+    assert "0.167" in panel.exponent_html.value and "upper bound" in panel.exponent_html.value
+    assert "against its reference rate" not in panel.readout_html.value  # the regression rates are not shown
+    assert panel.results().task == "classify"
+    assert_plain_screen(panel)
+    assert_json_states(panel)
+
+
+def test_read_out_fields_and_unknown_learners_do_not_break_the_panel(finished_campaign):
+    """Learners the panel has no label for (evidence cells, say) and curves without a fit are listed with the
+    reason; a text field added to ReadOut is shown by the one rendering function."""
+    import pandas as pd
+
+    from manireg.curves.readout import ReadOut
+    from manireg.widgets.curves import readout_rows
+
+    rows = finished_campaign.result().rows
+    extra = rows[rows["learner"] == "net"].copy()
+    extra["learner"] = "net-budget-4x"  # a learner label the panel and the style module do not know
+    single = extra[extra["n"] == extra["n"].max()].copy()
+    single["learner"] = "width-check"  # one size: no curve to fit
+    broken = extra.assign(learner="train_mse_check", test_mse=float("nan"))  # no error to fit at all
+    panel = CurvePanel(pd.concat([rows, extra, single, broken], ignore_index=True), dimension=2.0, smoothness=1.0,
+                       ambient_dim=5, floor="fit", n_boot=20)
+    assert panel.error is None, panel.error
+    assert set(panel.fits) == {"net", "knn", "net-budget-4x", "width-check"}
+    assert set(panel.fit_errors) == {"train_mse_check"}
+    assert panel.fits["width-check"].verdict in panel.fits_html.value  # "insufficient data", in the table
+    assert "no fit" in panel.fits_html.value and "train_mse_check" in panel.fits_html.value
+    assert "train mse check" in [lab for lab, _ in panel.learner.options]  # no snake_case name in a control
+    panel.learner.value = "train_mse_check"  # the selected learner's failure is the panel's error, not an exception
+    assert panel.fit is None and panel.error is not None
+    panel.learner.value = "net-budget-4x"
+    assert panel.error is None and panel.readout is not None
+
+    @dataclasses.dataclass
+    class WithDiagnosis(ReadOut):
+        diagnoses: dict = dataclasses.field(default_factory=dict)
+
+    ro = WithDiagnosis(**{f.name: getattr(panel.readout, f.name) for f in dataclasses.fields(ReadOut)},
+                       diagnoses={"net": "limited by the optimiser: 3 cells moved beyond the seed spread"})
+    shown = dict(readout_rows(ro, "net"))
+    assert shown["diagnosis"] == "limited by the optimiser: 3 cells moved beyond the seed spread"
+    assert "diagnosis" not in dict(readout_rows(ro, "knn"))
+    assert "against its reference rate" in shown and "exponent" not in shown
+    assert_json_states(panel)
+
+
 # ------------------------------------------------------------------------------------------------- workbench
 def test_workbench_passes_dimension_smoothness_width_and_constants(sample, tmp_path):
     from manireg.widgets.workbench import SET_UP_LABEL
@@ -482,7 +639,7 @@ def test_workbench_passes_dimension_smoothness_width_and_constants(sample, tmp_p
     panel = WorkbenchPanel(sample.X, sample.y, smoothness=1.0, sizes=[24, 48, 96], repeats=2, learners=[TINY_NET],
                            store=str(tmp_path / "s.sqlite"),
                            geometry_kwargs={"estimators": ("mle",), "scales": (5, 10), "n_boot": 0})
-    assert panel.create_button.description == SET_UP_LABEL == "Set up campaign (d and s from the sizing panel)"
+    assert panel.create_button.description == SET_UP_LABEL == "Set up campaign (d, s and network size from the sizing tab)"
     assert panel.sizing.dimension.value == pytest.approx(round(panel.geometry.consensus, 2))
     panel.geometry.k_range.value = (5, 8)
     assert panel.sizing.dimension.value == pytest.approx(round(panel.geometry.consensus, 2))
@@ -490,6 +647,9 @@ def test_workbench_passes_dimension_smoothness_width_and_constants(sample, tmp_p
     panel.sizing.width_multiplier.value = 2.0
     panel.sizing.constants["c_width"].value = 3.0
     panel.sizing.constants["depth_max"].value = 4
+    panel.sizing.constants["c_depth"].value = 0.75
+    panel.sizing.constants["c_nonzero"].value = 8.0
+    panel.sizing.constants["width_max"].value = 40
     campaign = panel.create_campaign()
     assert panel.error is None, panel.error
     assert campaign.data.smoothness == 1.5
@@ -498,6 +658,9 @@ def test_workbench_passes_dimension_smoothness_width_and_constants(sample, tmp_p
     assert net.kind == "net" and net.name == "net-w2"
     assert net.params["width_multiplier"] == 2.0
     assert net.params["constants"]["c_width"] == 3.0 and net.params["constants"]["depth_max"] == 4
+    # every constant and cap of the sizing panel reaches the campaign's net, not only d and s
+    assert {k: net.params["constants"][k] for k in panel.sizing.constants} == panel.sizing.constants_dict() == {
+        "c_depth": 0.75, "c_width": 3.0, "c_nonzero": 8.0, "depth_max": 4, "width_max": 40}
     assert net.params["max_steps"] == TINY_NET["params"]["max_steps"]  # the learner's own settings kept
     # the cells' networks are the sizing panel's networks at their n
     from manireg.curves.learners import make_learner
@@ -508,7 +671,16 @@ def test_workbench_passes_dimension_smoothness_width_and_constants(sample, tmp_p
                             constants=panel.sizing.sizing_constants(), width_multiplier=2.0)
         arch = make_learner(net).architecture(n, campaign.data)
         assert (arch.width, arch.depth) == (spec.width, spec.depth)
-    assert campaign.cells()[0].config["learner"]["params"]["constants"]["c_width"] == 3.0  # in the cell key
+    cell_constants = campaign.cells()[0].config["learner"]["params"]["constants"]  # in the cell key
+    assert cell_constants["c_width"] == 3.0 and cell_constants["width_max"] == 40 and cell_constants["c_depth"] == 0.75
+    assert campaign.spec.to_dict()["learners"][0]["params"]["width_multiplier"] == 2.0
+    # the curve panel's size view copies those settings into the nets it adds (only the multiplier and c_depth vary)
+    panel.curves.size_widths.value, panel.curves.size_depths.value = "1, 2", "0.75, 1.5"
+    grid = panel.curves.size_learners()
+    assert [l.name for l in grid] == ["net", "net-w2", "net-cd1.5", "net-w2-cd1.5"]
+    for l in grid:
+        assert {k: v for k, v in l.params["constants"].items() if k != "c_depth"} == {
+            k: v for k, v in net.params["constants"].items() if k != "c_depth"}
     assert panel.curves is not None and panel.curves_box.children == (panel.curves,)
     assert "press Start / resume" in panel.status.value
     panel.sizing.smoothness.value = 2.0
@@ -531,7 +703,8 @@ def test_workbench_with_a_finished_campaign_has_our_look_and_plain_labels(finish
     assert_plain_screen(panel)
     assert_json_states(panel)
     buttons = [w for w in descendants(panel) if isinstance(w, widgets.Button)]
-    assert len(buttons) == 3  # 2-D view, start, pause (the set-up button gave way to the curve panel)
+    # 2-D view, start, pause, the size view's button (the set-up button gave way to the curve panel)
+    assert len(buttons) == 4
     for w in descendants(panel):
         assert getattr(w, "button_style", "") not in STOCK_STYLES, w
         assert getattr(w, "bar_style", "") not in STOCK_STYLES, w

@@ -239,19 +239,21 @@ class Panel(widgets.VBox):
 
 
 def set_choices(panel, dropdown, options, preferred=()):
-    """Give ``dropdown`` these options without firing the panel's update: keep the current choice when it is
-    still offered, else the first of ``preferred`` that is, else the first option."""
-    options = list(options)
-    if list(dropdown.options) == options:
+    """Give ``dropdown`` these options (values, or ``(label, value)`` pairs) without firing the panel's update:
+    keep the current choice when it is still offered, else the first of ``preferred`` that is, else the first
+    option."""
+    options = [tuple(o) if isinstance(o, (tuple, list)) else o for o in options]
+    if [tuple(o) if isinstance(o, (tuple, list)) else o for o in dropdown.options] == options:
         return
+    values = [o[1] if isinstance(o, tuple) else o for o in options]
     panel._quiet = True
     try:
         current = dropdown.value
         dropdown.options = options
-        if current in options:
+        if current in values:
             dropdown.value = current
-        elif options:
-            dropdown.value = next((c for c in preferred if c in options), options[0])
+        elif values:
+            dropdown.value = next((c for c in preferred if c in values), values[0])
     finally:
         panel._quiet = False
 

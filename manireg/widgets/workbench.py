@@ -24,7 +24,7 @@ from .sizing import SizingPanel
 __all__ = ["WorkbenchPanel", "WorkbenchResults", "SET_UP_LABEL"]
 
 #: The button that sets up a campaign in the curves tab.
-SET_UP_LABEL = "Set up campaign (d and s from the sizing panel)"
+SET_UP_LABEL = "Set up campaign (d, s and network size from the sizing tab)"
 
 
 @dataclass
@@ -125,18 +125,24 @@ class WorkbenchPanel(Panel):
                 self.curves.dimension.value = float(self.sizing.dimension.value)
 
     def learner_specs(self) -> list:
-        """The campaign's learners, net learners with the sizing tab's width multiplier and constants."""
+        """The campaign's learners, net learners with the sizing tab's width multiplier and every sizing constant
+        (those with a control and the others the sizing panel was built with: caps and floors included)."""
+        import dataclasses
+
+        from manireg.curves.capacity import NET_KINDS
         from manireg.curves.learners import LEARNER_KINDS, LearnerSpec
 
+        constants = dataclasses.asdict(self.sizing.sizing_constants())
+        constants.pop("output_bound")  # a campaign net's output bound is its own parameter ("auto" by default)
         out = []
         for value in self._campaign_kwargs["learners"]:
             spec = LearnerSpec.coerce(value)
-            if spec.kind == "net":
+            if spec.kind in NET_KINDS:
                 params = dict(spec.params)
                 params["width_multiplier"] = float(self.sizing.width_multiplier.value)
-                params["constants"] = {**dict(params.get("constants") or {}), **self.sizing.constants_dict()}
-                default = spec.name == LEARNER_KINDS["net"].default_name(spec.params)
-                spec = LearnerSpec("net", name=None if default else spec.name, params=params)
+                params["constants"] = {**dict(params.get("constants") or {}), **constants}
+                default = spec.name == LEARNER_KINDS[spec.kind].default_name(spec.params)
+                spec = LearnerSpec(spec.kind, name=None if default else spec.name, params=params)
             out.append(spec)
         return out
 
