@@ -43,7 +43,7 @@ from manireg._threads import torch_threads
 from manireg._validation import DataValidationError, check_choice, check_int, check_points
 from manireg.nets.builders import ResidualConvNetwork, build_conv_network
 from manireg.nets.losses import probabilities, row_loss, stopping_loss
-from manireg.nets.training import ReplicaResult, ReplicaTask, TrainConfig, _Prepared, lr_at_step
+from manireg.nets.training import ReplicaResult, ReplicaTask, TrainConfig, _check_task_target, lr_at_step
 from manireg.theory.sizing import ConvArchitectureSpec
 
 __all__ = ["BatchedConvTrainer", "conv_forward", "check_image_shape", "CONV_LOSSES", "CONV_MODES", "GROUPED_MAX_MACS"]
@@ -54,7 +54,7 @@ CONV_MODES = ("auto", "grouped", "split")
 #: pass over its step's rows costs fewer multiply-adds than this, and runs one ``conv2d`` per replica
 #: otherwise: small convolutions are dominated by per-call overhead, which stacking shares, while on
 #: larger ones the grouped kernel was slower than separate calls (tests/benchmarks/bench_conv.py --modes).
-GROUPED_MAX_MACS = 2e7
+GROUPED_MAX_MACS = 5e6
 
 
 def check_image_shape(image_shape, n_features, owner="BatchedConvTrainer"):
@@ -86,6 +86,57 @@ def check_image_shape(image_shape, n_features, owner="BatchedConvTrainer"):
             "flattened from (e.g. (16, 16) for 256 columns of 16x16 grey images)."
         )
     return shape
+
+
+class _Prepared:
+    """One replica's validated data: images standardised per channel (one mean and std per channel over
+    the training rows and pixels, common practice for convolutional nets: per-pixel scaling would blow up
+    nearly constant background pixels), targets as in the dense trainer (standardised MSE targets, one-hot
+    labels), a validation split drawn with the replica's seed when the task has none."""
+
+    def __init__(self, task, index, config, shape, owner, loss, n_outputs):
+        if not isinstance(task, ReplicaTask):
+            raise ValueError(f"{owner}: tasks[{index}] must be a ReplicaTask; got {type(task).__name__}.")
+        seed = task.seed
+        if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
+            raise ValueError(f"{owner}: tasks[{index}].seed must be a non-negative int; got {seed!r}.")
+        D = int(np.prod(shape))
+        X = check_points(task.X_train, name=f"tasks[{index}].X_train", min_samples=2, owner=owner)
+        check_image_shape(shape, X.shape[1], owner=f"{owner} (tasks[{index}].X_train)")
+        y = _check_task_target(task.y_train, len(X), f"tasks[{index}].y_train", owner, loss, n_outputs)
+        if task.X_val is None:
+            perm = np.random.default_rng(derive_seed(seed, 2)).permutation(len(X))
+            n_val = max(1, int(round(config.validation_fraction * len(X))))
+            if len(X) - n_val < 2:
+                raise DataValidationError(f"{owner}: tasks[{index}] has {len(X)} rows, too few to hold out a "
+                                          "validation set; pass at least 3 rows or an explicit X_val.")
+            Xv, yv, X, y = X[perm[:n_val]], y[perm[:n_val]], X[perm[n_val:]], y[perm[n_val:]]
+        else:
+            Xv = check_points(task.X_val, name=f"tasks[{index}].X_val", min_samples=1, owner=owner)
+            check_image_shape(shape, Xv.shape[1], owner=f"{owner} (tasks[{index}].X_val)")
+            yv = _check_task_target(task.y_val, len(Xv), f"tasks[{index}].y_val", owner, loss, n_outputs)
+        C = shape[0]
+        per_channel = X.reshape(len(X), C, -1)
+        mean = per_channel.mean(axis=(0, 2))
+        std = per_channel.std(axis=(0, 2))
+        std = np.where(std > 1e-12 * max(1.0, float(np.abs(X).max())), std, 1.0)
+        self.x_mean, self.x_std = np.repeat(mean, D // C), np.repeat(std, D // C)  # per column
+        self.seed, self.n, self.n_val = int(seed), len(X), len(Xv)
+        if config.standardize_target and loss == "mse":
+            ys = float(y.std())
+            self.y_mean, self.y_scale = float(y.mean()), (ys if ys > 1e-12 * max(1.0, float(np.abs(y).max())) else 1.0)
+        else:
+            self.y_mean, self.y_scale = 0.0, 1.0
+        self.X = torch.from_numpy(self.standardize(X))
+        self.Xv = torch.from_numpy(self.standardize(Xv))
+        self.y = torch.from_numpy(((y - self.y_mean) / self.y_scale).astype(np.float32))
+        self.yv = torch.from_numpy(yv.astype(np.float32))  # validation targets stay in target units
+        self.y_raw = torch.from_numpy(y.astype(np.float32))
+        self.full = self.n <= config.full_batch_threshold
+        self.batch = self.n if self.full else min(config.batch_size, self.n)
+
+    def standardize(self, X):
+        return ((X - self.x_mean) / self.x_std).astype(np.float32)
 
 
 def _param_names(spec):
@@ -251,13 +302,7 @@ class BatchedConvTrainer:
         tasks = list(tasks)
         if not tasks:
             raise ValueError(f"the 'tasks' parameter of {owner} must hold at least one ReplicaTask; got none.")
-        D = int(np.prod(self.spec.input_shape))
-        for i, t in enumerate(tasks):
-            cols = np.shape(getattr(t, "X_train", None))
-            if len(cols) == 2 and cols[1] != D:
-                check_image_shape(self.spec.input_shape, cols[1], owner=f"{owner} (tasks[{i}])")
-        K = self.spec.n_outputs
-        prepared = [_Prepared(t, i, self.config, D, owner, self.loss, max(K, 1) if self.loss != "mse" else 1)
+        prepared = [_Prepared(t, i, self.config, self.spec.input_shape, owner, self.loss, self.spec.n_outputs)
                     for i, t in enumerate(tasks)]
         groups = {}
         for i, p in enumerate(prepared):
@@ -332,13 +377,11 @@ class BatchedConvTrainer:
         return z[..., 0] if self.loss == "mse" else z
 
     def _predict_states(self, states, X, chunk):
-        Xt = torch.from_numpy(X.astype(np.float32))
-        mean = torch.from_numpy(np.stack([s["x_mean"] for s in states]).astype(np.float32))[:, None, :]
-        std = torch.from_numpy(np.stack([s["x_std"] for s in states]).astype(np.float32))[:, None, :]
         params = [torch.from_numpy(np.stack([s["params"][j] for s in states])) for j in range(len(states[0]["params"]))]
         outs = []
         for a in range(0, len(X), chunk):
-            x = (Xt[None, a:a + chunk] - mean) / std
+            rows = X[a:a + chunk]
+            x = torch.from_numpy(np.stack([((rows - s["x_mean"]) / s["x_std"]).astype(np.float32) for s in states]))
             outs.append(self._scores(params, self._images(x)))
         z = torch.cat(outs, dim=1)
         if self.loss != "mse":
@@ -415,7 +458,7 @@ class BatchedConvTrainer:
             tr, va = restored(p.X, p.y_raw), restored(p.Xv, p.yv)
             bst = int(g.best_step[local])
             state = {"spec": spec, "params": [b[0].numpy().copy() for b in best],
-                     "x_mean": p.x_mean.astype(np.float32), "x_std": p.x_std.astype(np.float32),
+                     "x_mean": p.x_mean, "x_std": p.x_std,
                      "y_mean": p.y_mean, "y_scale": p.y_scale}
             weights = [b for name, b in zip(_param_names(spec), best) if name.endswith("weight")]
             results[r] = ReplicaResult(
