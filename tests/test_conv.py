@@ -116,3 +116,12 @@ def test_bad_image_shape_is_a_clear_error(images):
     trainer = BatchedConvTrainer(size_conv_network(60, 2, 1, (6, 6), n_outputs=3), loss="cross_entropy")
     with pytest.raises(ValueError, match=r"declared image_shape \(1, 6, 6\).*64 columns"):
         trainer.fit([ReplicaTask(X[:60], y[:60], seed=0)])
+
+
+def test_conv_net_regression_rows():
+    gen = {"manifold": "rendered_objects", "n": 200, "d": 2, "size": 8, "smoothness": 1.0, "noise_std": 0.1, "seed": 0}
+    rows = Campaign(generator=gen, sizes=[40, 80], repeats=1, test_size=60,
+                    learners=[LearnerSpec("conv_net", params={"max_steps": 20, "min_steps": 0})]).run(progress=False).rows
+    assert len(rows) == 2 and rows.test_mse.notna().all() and (rows.test_mse > 0).all()
+    # rows name the conv shape: channels in width, residual blocks in depth
+    assert (rows.width >= 8).all() and (rows.depth >= 1).all() and set(rows.learner) == {"conv_net"}
