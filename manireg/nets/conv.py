@@ -258,7 +258,8 @@ class BatchedConvTrainer:
     Task rows are flattened images, (n, C*H*W) in C order; rows of another length stop ``fit`` with an
     error naming the declared shape. Replicas are grouped as in the dense trainer: full-batch replicas
     (``n <= full_batch_threshold``) with others of the same n, minibatch replicas together; a replica that
-    stops leaves the stack. One thread by default (``n_threads=None``) when a step costs under 2e8 flops.
+    stops leaves the stack. One thread by default (``n_threads=None``) when one replica's step costs under 2e8
+flops (torch's setting above).
 
     Examples
     --------
@@ -313,7 +314,9 @@ class BatchedConvTrainer:
             reps = [prepared[i] for i in idx]
             threads = self.config.n_threads
             if threads is None:
-                threads = 1 if 6.0 * self._flops_per_row() * sum(p.batch for p in reps) < 2e8 else None
+                # from one replica's step, never the stack height: a replica's threads (and so its
+                # rounding) do not depend on which replicas share its stack
+                threads = 1 if 6.0 * self._flops_per_row() * reps[0].batch < 2e8 else None
             with torch_threads(threads):
                 for i, res in zip(idx, self._fit_group(reps)):
                     results[i] = res
