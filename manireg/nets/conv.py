@@ -1,25 +1,28 @@
 """Batched training of many residual convolutional replicas at once, for image-shaped input.
 
 :class:`BatchedConvTrainer` trains R replicas of one :class:`~manireg.theory.sizing.ConvArchitectureSpec`
-together. The replicas are stacked along the channel axis: a minibatch of replica r is an (B, C, H, W)
-tensor, the stack is (B, R*C, H, W), and every convolution is ONE ``conv2d`` call with ``groups=R`` whose
-weight is the replicas' kernels stacked along the output channels. A grouped convolution never mixes
-groups, so replica r's activations are its own network applied to its own images. The dense head is one
-``baddbmm`` per layer on (R, B, .) stacks. The loss is the sum over replicas of each replica's mean loss,
-so each replica's gradient (autograd) is exactly its own, and Adam [1]_ is elementwise: training R
-replicas together gives the same networks as training each alone with the same seed, up to float rounding
-(the convolution kernels may block the channel axis differently for different R; ``tests/test_conv.py``
-checks the agreement).
+together. The dense head, the losses, the gradients (autograd) and Adam [1]_ work on stacked (R, ...)
+tensors; the convolutions run in one of two ways (``mode``). ``"grouped"``: the replicas are stacked along
+the channel axis, a minibatch of replica r is an (B, C, H, W) tensor, the stack is (B, R*C, H, W), and every
+convolution is ONE ``conv2d`` call with ``groups=R`` whose weight is the replicas' kernels stacked along the
+output channels; a grouped convolution never mixes groups. ``"split"``: one ``conv2d`` per replica on its
+slice. The loss is the sum over replicas of each replica's mean loss, so each replica's gradient is exactly
+its own, and Adam is elementwise: training R replicas together gives the same networks as training each
+alone with the same seed, bit for bit in ``"split"`` mode and up to float rounding in ``"grouped"`` mode
+(the kernel may block the channel axis differently for different R); ``tests/test_conv.py`` checks both.
 
 Each replica has its own data (its own n), its own initial weights (:func:`~manireg.nets.build_conv_network`
 with the replica's seed, so a seed gives the same network here and there), its own minibatch stream and
 its own early stopping on a validation split [2]_, as in :class:`manireg.nets.training.BatchedTrainer`,
 whose :class:`~manireg.nets.training.TrainConfig` and losses (:mod:`manireg.nets.losses`: ``"mse"`` and
-``"cross_entropy"``) it uses. Arithmetic is float32 (no mixed precision, pruning or weight projection).
+``"cross_entropy"``) it uses. Arithmetic is float32 (no mixed precision or pruning; ``project_weights`` clamps
+the weights as in the dense trainer).
 
-Why grouped convolution rather than ``torch.func.vmap``: vmap over ``conv2d`` with batched weights is
-itself rewritten into a grouped convolution, and the explicit form avoids its per-call dispatch;
-``python tests/benchmarks/bench_conv.py --quick`` measures both (docs/classification.md).
+Which way is faster depends on the size of a step: stacking shares per-call overhead, which dominates small
+convolutions, while on larger ones the grouped kernel was slower than separate calls; ``mode="auto"``
+chooses by :data:`GROUPED_MAX_MACS`. ``torch.func.vmap`` over ``conv2d`` with batched weights is rewritten
+into the same grouped call and was no faster. ``python tests/benchmarks/bench_conv.py --modes`` measures
+the three (docs/classification.md).
 
 References
 ----------
