@@ -43,7 +43,8 @@ def this_python_kernel(tmp_path, monkeypatch):
 
 
 def test_notebooks_are_committed_without_outputs():
-    assert len(NOTEBOOKS) == 4  # geometry, sizing and planning, learning-curve campaign, policy campaign
+    assert len(NOTEBOOKS) == 5  # geometry, sizing and planning, learning-curve campaign, policy campaign,
+    # classification on rendered images
     for path in NOTEBOOKS:
         nb = nbformat.read(path, as_version=4)
         for cell in nb.cells:

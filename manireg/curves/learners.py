@@ -54,7 +54,7 @@ import numpy as np
 from manireg.curves import baselines
 
 __all__ = ["LearnerSpec", "Learner", "NetLearner", "KNNLearner", "KernelRidgeLearner", "NetClassifierLearner",
-           "KNNClassifierLearner", "LogisticLearner", "LEARNER_KINDS",
+           "KNNClassifierLearner", "LogisticLearner", "ConvNetLearner", "ConvClassifierLearner", "LEARNER_KINDS",
            "register_learner", "make_learner"]
 
 
@@ -510,3 +510,138 @@ def make_learner(spec) -> Learner:
     """The Learner object for a :class:`LearnerSpec` (or anything :meth:`LearnerSpec.coerce` accepts)."""
     spec = LearnerSpec.coerce(spec)
     return LEARNER_KINDS[spec.kind](spec)
+
+
+# ---------------------------------------------------------------------------- convolutional learners
+class ConvNetLearner(NetLearner):
+    """Residual convolutional net on image rows, sized by :func:`manireg.theory.sizing.size_conv_network`
+    and trained by :class:`manireg.nets.conv.BatchedConvTrainer` (all repeats of one n in one call).
+
+    Parameters (``LearnerSpec.params``): ``image_shape`` ((H, W) or (C, H, W); default: square grey images
+    when the number of columns is a square, e.g. (16, 16) for 256 columns); ``c_channels``, ``channels_max``
+    (the channel rule's constant and cap); ``mode`` ("auto", "grouped", "split"); ``constants``
+    (SizingConstants fields: depth and head width rules); ``output_bound`` (regression, as for ``"net"``);
+    and any TrainConfig field. Rows put the channels in ``width`` and the residual blocks in ``depth``.
+    """
+
+    kind = "conv_net"
+    _own = ("image_shape", "constants", "output_bound", "c_channels", "channels_max", "mode")
+    _loss = "mse"
+
+    @classmethod
+    def check_params(cls, params):
+        Learner.check_params.__func__(cls, params)
+        if params.get("image_shape") is not None:
+            from manireg.nets.conv import check_image_shape
+
+            check_image_shape(params["image_shape"], None, owner=f"LearnerSpec({cls.kind!r})")
+
+    @classmethod
+    def default_name(cls, params) -> str:
+        return cls.kind
+
+    def image_shape(self, data):
+        """The declared (C, H, W), checked against the data's columns (a clear error when they differ)."""
+        from manireg.nets.conv import check_image_shape
+
+        D = int(data.ambient_dim)
+        shape = self.spec.params.get("image_shape")
+        if shape is None:
+            side = int(round(math.sqrt(D)))
+            if side * side != D:
+                raise ValueError(
+                    f"LearnerSpec({self.kind!r}): the data has {D} columns, not a square number of pixels; declare "
+                    "the image shape with params={'image_shape': (C, H, W)} (C*H*W must equal the columns).")
+            shape = (side, side)
+        return check_image_shape(shape, D, owner=f"LearnerSpec({self.kind!r})")
+
+    def _train_config(self):
+        from manireg.nets.training import TrainConfig
+
+        return TrainConfig(**{k: v for k, v in self.spec.params.items() if k not in self._own})
+
+    def resolve(self, context) -> dict:
+        from manireg.theory.sizing import SizingConstants
+
+        p = self.spec.params
+        out = {"image_shape": None if context is None else list(self.image_shape(context)),
+               "c_channels": float(p.get("c_channels", 1.0)), "channels_max": int(p.get("channels_max", 32)),
+               "mode": str(p.get("mode", "auto")),
+               "constants": dataclasses.asdict(SizingConstants(**dict(p.get("constants") or {}))),
+               "train": dataclasses.asdict(self._train_config()), "loss": self._loss}
+        if self._loss == "mse":
+            ob = p.get("output_bound", "auto")
+            out["output_bound"] = ob if ob in (None, "auto") else float(ob)
+        return out
+
+    def architecture(self, n, data):
+        from manireg.theory.sizing import SizingConstants, size_conv_network
+
+        p = self.spec.params
+        ob = self._output_bound(data) if self._loss == "mse" else None
+        return size_conv_network(n, data.dimension, data.smoothness, self.image_shape(data),
+                                 constants=SizingConstants(**dict(p.get("constants") or {})),
+                                 c_channels=float(p.get("c_channels", 1.0)), channels_max=int(p.get("channels_max", 32)),
+                                 n_outputs=max(1, data.n_classes) if self._loss != "mse" else 1, output_bound=ob)
+
+    def cell_cost(self, n, data) -> float:
+        """Training steps of one replica: ``6 *`` (multiply-adds of one image) ``*`` rows ``*`` steps."""
+        from manireg.nets.conv import BatchedConvTrainer
+
+        train = self._train_config()
+        arch = self.architecture(n, data)
+        n_fit = n - int(round(data.validation_fraction * n))
+        rows = n_fit if n_fit <= train.full_batch_threshold else min(train.batch_size, n_fit)
+        per_row = BatchedConvTrainer(arch, train, loss=self._loss)._flops_per_row()
+        return 6.0 * per_row * rows * train.max_steps + 2.0 * per_row * (n + len(data.y_test))
+
+    def _fit(self, cells, data):
+        from manireg.nets.conv import BatchedConvTrainer
+        from manireg.nets.training import ReplicaTask
+
+        ns = {c.n for c in cells}
+        if len(ns) != 1:
+            raise ValueError(f"{type(self).__name__}.run: cells of one call must share n; got sizes {sorted(ns)}.")
+        arch = self.architecture(cells[0].n, data)
+        conv = lambda y: y if self._loss == "mse" else y.astype(np.int64)  # noqa: E731
+        tasks = []
+        for c in cells:
+            Xf, yf, Xv, yv = data.cell_split(c)
+            tasks.append(ReplicaTask(Xf, conv(yf), Xv, conv(yv), seed=int(c.seed)))
+        trainer = BatchedConvTrainer(arch, self._train_config(), loss=self._loss,
+                                     mode=str(self.spec.params.get("mode", "auto")))
+        return arch, trainer, trainer.fit(tasks)
+
+    def _extra(self, arch, r):
+        return {"steps": int(r.steps), "best_step": int(r.best_step), "stop_reason": str(r.stop_reason),
+                "late_best": bool(r.late_best), "n_parameters": int(r.n_parameters), "width": int(arch.channels),
+                "depth": int(arch.n_blocks), "width_multiplier": None, "precision": str(r.precision)}
+
+    def run(self, cells, data) -> list:
+        arch, trainer, results = self._fit(cells, data)
+        out = []
+        for i, r in enumerate(results):
+            test, clean = _test_errors(trainer.predict(data.X_test, replica=i), data)
+            row = {"train_mse": float(r.train_mse), "val_mse": float(r.val_mse), "test_mse": test,
+                   "test_mse_clean": clean, "seconds": float(r.seconds)}
+            row.update(self._extra(arch, r))
+            out.append(row)
+        return out
+
+
+class ConvClassifierLearner(ConvNetLearner):
+    """The residual convolutional net with one output per class, trained with the cross-entropy loss."""
+
+    kind = "conv_classifier"
+    task = "classify"
+    _own = ("image_shape", "constants", "c_channels", "channels_max", "mode")
+    _loss = "cross_entropy"
+
+    def run(self, cells, data) -> list:
+        arch, trainer, results = self._fit(cells, data)
+        return [_classification_row(trainer.predict(data.X_test, replica=i), data, r.seconds, **self._extra(arch, r))
+                for i, r in enumerate(results)]
+
+
+register_learner(ConvNetLearner)
+register_learner(ConvClassifierLearner)

@@ -1,4 +1,5 @@
-"""ReLU network builders, the batched trainer and a scikit-learn style regressor.
+"""ReLU network builders, the batched trainers (dense and residual convolutional) and a scikit-learn style
+regressor.
 
 Names are imported on first use (see :mod:`manireg._lazy`): the trainer does not need scikit-learn, the
 regressor does.
@@ -12,6 +13,7 @@ _EXPORTS = {
                   "Standardize", "ReLUNetwork", "ResidualConvNetwork"],
     ".training": ["TrainConfig", "ReplicaTask", "ReplicaResult", "BatchedTrainer", "lr_at_step", "resolve_precision"],
     ".regressor": ["NetworkRegressor"],
+    ".conv": ["BatchedConvTrainer", "conv_forward", "check_image_shape"],
 }
 
 __getattr__, __dir__, __all__ = lazy_namespace(__name__, _EXPORTS)

@@ -273,14 +273,17 @@ class _ResidualBlock(nn.Module):
 class ResidualConvNetwork(nn.Module):
     """Small residual convolutional ReLU network for 1-D ``(C, L)`` or 2-D ``(C, H, W)`` inputs.
 
-    Accepts input of shape (m, D) with ``D = prod(input_shape)`` or (m, *input_shape); output (m,).
+    Accepts input of shape (m, D) with ``D = prod(input_shape)`` or (m, *input_shape); output (m,), or
+    (m, K) class scores (no rescaling or clipping) when built with ``n_outputs = K > 1``.
     Layers: ``standardize`` (on the flattened input), ``stem`` conv, ``block1`` ... residual blocks
     (stride 2 while the spatial size is >= 4), global average ``pool``, ``head`` (linear, ReLU, linear),
     ``rescale``, ``clip``.
     """
 
-    def __init__(self, spec, input_shape, channels, n_blocks, generator, standardize=None, target_scale=None):
+    def __init__(self, spec, input_shape, channels, n_blocks, generator, standardize=None, target_scale=None,
+                 n_outputs=1):
         super().__init__()
+        self.n_outputs = int(n_outputs)
         self.input_shape = tuple(int(v) for v in input_shape)
         two_d = len(self.input_shape) == 3
         conv = nn.Conv2d if two_d else nn.Conv1d
@@ -301,7 +304,7 @@ class ResidualConvNetwork(nn.Module):
         self.blocks = nn.Sequential(OrderedDict((f"block{i + 1}", b) for i, b in enumerate(blocks)))
         self.pool = pool
         hidden = nn.utils.skip_init(nn.Linear, channels, spec.width)
-        out = nn.utils.skip_init(nn.Linear, spec.width, 1)
+        out = nn.utils.skip_init(nn.Linear, spec.width, self.n_outputs)
         with torch.no_grad():
             hidden.weight.copy_((torch.rand(hidden.weight.shape, generator=generator) * 2 - 1) * math.sqrt(6.0 / channels))
             hidden.bias.zero_()
@@ -317,14 +320,21 @@ class ResidualConvNetwork(nn.Module):
         x = self.standardize(x.reshape(m, -1)).reshape(m, *self.input_shape)
         x = self.blocks(torch.relu(self.stem(x)))
         x = self.pool(x).reshape(m, -1)
+        if self.n_outputs > 1:
+            return self.head(x)  # (m, K) class scores: no rescaling or clipping
         return self.clip(self.rescale(self.head(x)))
 
 
-def build_conv_network(spec, input_shape, seed=None, standardize=None, target_scale=None) -> ResidualConvNetwork:
+def build_conv_network(spec, input_shape, seed=None, standardize=None, target_scale=None, *, channels=None,
+                       n_blocks=None, n_outputs=1) -> ResidualConvNetwork:
     """A residual convolutional ReLU network for image-shaped input, sized from the same spec.
 
     Channels ``= clip(spec.width // 4, 8, 64)``; residual blocks ``= max(1, spec.depth - 1)``; the head is a
     hidden layer of ``spec.width`` units. Residual convolutional nets attain manifold rates too [3]_.
+    ``channels`` and ``n_blocks`` replace the two rules when given (the conv sizing rule of
+    :func:`manireg.theory.sizing.size_conv_network` gives both); ``n_outputs = K > 1`` gives K class scores.
+    Weights are drawn in module order (stem, blocks, head) from one generator seeded with ``seed``, so a
+    seed gives the same network in :class:`manireg.nets.conv.BatchedConvTrainer`.
 
     Parameters
     ----------
@@ -367,10 +377,13 @@ def build_conv_network(spec, input_shape, seed=None, standardize=None, target_sc
             f"{spec.input_dim}; got {input_shape!r} (product {int(np.prod(shape))}). Size the spec with "
             "input_dim equal to the number of pixels times channels."
         )
+    for name, v in (("channels", channels), ("n_blocks", n_blocks), ("n_outputs", n_outputs)):
+        if v is not None and (isinstance(v, bool) or not isinstance(v, numbers.Integral) or v < 1):
+            raise ValueError(f"the '{name}' parameter of {owner} must be an int >= 1 or None; got {v!r}.")
     g = _generator(seed, owner)
-    channels = int(np.clip(spec.width // 4, 8, 64))
-    n_blocks = max(1, spec.depth - 1)
-    return ResidualConvNetwork(spec, shape, channels, n_blocks, g, standardize, target_scale)
+    channels = int(np.clip(spec.width // 4, 8, 64)) if channels is None else int(channels)
+    n_blocks = max(1, spec.depth - 1) if n_blocks is None else int(n_blocks)
+    return ResidualConvNetwork(spec, shape, channels, n_blocks, g, standardize, target_scale, int(n_outputs or 1))
 
 
 def _weight_params(model: nn.Module):
