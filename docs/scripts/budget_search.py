@@ -23,6 +23,8 @@ import numpy as np
 
 CONFIGS = {
     "fixed 500 steps, lr 3e-3": {"budget": "fixed"},
+    "rule 60 epochs, lr 3e-3": {"budget": {"epochs": 60, "steps_min": 800, "steps_max": 6000, "lr_base": 3e-3,
+                                           "lr_width_power": 0.0}},
     "rule, lr 1e-3": {"budget": {"lr_base": 1e-3, "lr_width_power": 0.0}},
     "rule, lr 3e-3": {"budget": {"lr_base": 3e-3, "lr_width_power": 0.0}},
     "rule, lr 1e-2": {"budget": {"lr_base": 1e-2, "lr_width_power": 0.0}},

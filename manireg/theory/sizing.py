@@ -371,9 +371,9 @@ class TrainingBudget:
 
     Attributes
     ----------
-    epochs : float, default=60
+    epochs : float, default=20
         Passes over the fitted rows.
-    steps_min, steps_max : int, default=800, 6000
+    steps_min, steps_max : int, default=500, 4000
         Floor and ceiling of the step budget (before ``multiplier``).
     lr_base : float, default=3e-3
         Peak Adam learning rate at width ``lr_width_ref``.
@@ -384,9 +384,9 @@ class TrainingBudget:
         Factor on the whole step budget (the budget check trains with 2 and 4).
     """
 
-    epochs: float = 60.0
-    steps_min: int = 800
-    steps_max: int = 6000
+    epochs: float = 20.0
+    steps_min: int = 500
+    steps_max: int = 4000
     lr_base: float = 3e-3
     lr_width_ref: int = 64
     lr_width_power: float = 0.5
@@ -431,10 +431,10 @@ def training_budget(n_fit, width, *, batch_size=128, full_batch_threshold=256, b
 
     Examples
     --------
-    >>> training_budget(200, 32)["max_steps"]     # full batch: 60 epochs are 60 steps, the floor wins
-    800
-    >>> training_budget(12800, 200)["max_steps"]  # 100 minibatch steps per epoch, 60 epochs
-    6000
+    >>> training_budget(200, 32)["max_steps"]     # full batch: 20 epochs are 20 steps, the floor wins
+    500
+    >>> training_budget(12800, 200)["max_steps"]  # 100 minibatch steps per epoch, 20 epochs
+    2000
     """
     b = TrainingBudget() if budget is None else budget
     if not isinstance(b, TrainingBudget):
