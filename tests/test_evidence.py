@@ -199,3 +199,28 @@ def test_evidence_settings_reject_bad_values():
         EvidenceSettings(budget_factors=(1.0,))
     with pytest.raises(ValueError, match="budget_repeats"):
         EvidenceSettings(budget_repeats=-1)
+
+
+def test_curves_command_with_evidence(tmp_path, capsys):
+    import json
+
+    from manireg.cli import main
+    from manireg.data import make_regression, sphere
+
+    reg = make_regression(sphere(400, 2, ambient_dim=5, seed=3), 1.0, noise_std=0.1, seed=4)
+    df = pd.DataFrame(reg.X, columns=[f"x{j}" for j in range(5)])
+    df["y"] = reg.y
+    csv = tmp_path / "s.csv"
+    df.to_csv(csv, index=False)
+    argv = ["curves", str(csv), "--target", "y", "--sizes", "40", "80", "160", "--repeats", "2", "--learners", "net",
+            "--no-geometry", "--dimension", "2", "--smoothness", "1", "--evidence", "--quiet", "--out", str(tmp_path / "o")]
+    assert main(argv) == 0
+    text = capsys.readouterr().out
+    assert "evidence cells" in text
+    summary = json.loads((tmp_path / "o" / "summary.json").read_text())
+    assert set(summary["exponents"]) == {"net"}  # the evidence cells are not a curve of their own
+    assert summary["evidence"]["net"]["budget"]
+    for name, d in summary.get("diagnoses", {}).items():
+        assert d["text"] and d["causes"]
+    assert main(argv) == 0  # again: nothing is retrained
+    assert "evidence cells (budget and capacity checks of the nets): " in capsys.readouterr().out

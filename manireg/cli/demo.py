@@ -29,8 +29,8 @@ def run(args) -> int:
     from ..curves.evidence import EvidenceSettings
 
     # nets take the default training budget (steps from epochs with a floor and a ceiling, docs/theory.md); the
-    # budget check retrains one cell per size with 2x and 4x the steps, the capacity check the largest size
-    # with 2x width
+    # budget check retrains with 2x and 4x the steps one flagged cell per size and one cell at each end of the
+    # curve, the capacity check one cell of the largest size with 2x width
     checks = EvidenceSettings(budget_repeats=1, capacity_sizes=1)
     if args.quick:
         n, sizes, repeats, view, n_boot = 1400, [80, 160, 320, 640, 1000], 3, False, 100
@@ -59,8 +59,8 @@ def run(args) -> int:
     result = campaign.run(progress=not args.quiet, metadata={"geometry": geo.to_dict(), "source": "built-in pebble scenario"},
                           evidence=checks)
     ev = (result.summary or {}).get("evidence") or {}
-    say(f"budget check: {ev.get('total', 0)} evidence cells (one net cell per size with 2x and 4x the steps, the largest "
-        "size with 2x width), stored under their own labels")
+    say(f"budget check: {ev.get('total', 0)} evidence cells (flagged net cells and one cell at each end of the curve with "
+        "2x and 4x the steps, the largest size with 2x width), stored under their own labels")
     # the demo knows its noise variance and gives it as the floor; it shows a plan even from an unverified
     # curve, with the plan's warning in plain words (`manireg curves` refuses unless --allow-unverified)
     floor = float(reg.noise_variance)

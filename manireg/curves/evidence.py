@@ -6,8 +6,9 @@ seeds as the cell they check, stored under their own learner labels so that they
 
 ``"<learner> budget x2"``, ``"<learner> budget x4"`` (the budget check)
     The cell retrained with 2 and 4 times the step budget (:class:`manireg.theory.sizing.TrainingBudget`
-    ``multiplier``). At every size the flagged cells are checked first (up to ``budget_repeats`` per size),
-    then unflagged ones fill the rest (a sample of the others). A cell whose error falls by more than the
+    ``multiplier``). At every size the flagged cells are checked (up to ``budget_repeats`` per size); at the
+    smallest and the largest size, which decide the verdict, unflagged cells fill up to ``budget_repeats``
+    (the sample of the others; first repeats first, no randomness). A cell whose error falls by more than the
     seed spread at its n (the standard deviation of the main curve's error over repeats at that n) with the
     larger budget is **optimisation-limited**. A curve with such a cell at its smallest or largest size gets
     the verdict ``"optimisation-limited"`` (:data:`manireg.curves.fitting.VERDICT_OPTIMISATION_LIMITED`).
@@ -69,7 +70,8 @@ class EvidenceSettings:
     budget_factors : tuple of float, default=(2, 4)
         Multipliers of the step budget of the budget check.
     budget_repeats : int, default=2
-        Cells checked per size and net learner (flagged ones first, then unflagged ones).
+        Cells checked per size and net learner: the flagged ones, and at the smallest and largest size
+        unflagged ones up to this number.
     capacity_factor : float, default=2
         Width multiplier of the capacity check.
     capacity_sizes : int, default=2
@@ -141,11 +143,15 @@ def evidence_cells(cells, rows, data, settings=None) -> list:
         mine = [c for c in cells if c.learner.name == spec.name and c.key in by_key]
         sizes = sorted({c.n for c in mine})
         checks = []
+        ends = {sizes[0], sizes[-1]} if sizes else set()
         for n in sizes:
             at_n = sorted((c for c in mine if c.n == n), key=lambda c: c.repeat)
-            flagged = [c for c in at_n if _flagged(by_key[c.key])]
+            flagged = [c for c in at_n if _flagged(by_key[c.key])][: st.budget_repeats]
             rest = [c for c in at_n if c not in flagged]
-            chosen = (flagged + rest)[: st.budget_repeats]
+            if n in ends and st.budget_repeats:  # the ends decide the verdict: at least one cell each, flagged or not
+                chosen = flagged + rest[: max(0, st.budget_repeats - len(flagged))]
+            else:
+                chosen = flagged
             checks += [("budget", f, c) for f in st.budget_factors for c in chosen]
         for n in sizes[::-1][: st.capacity_sizes]:
             at_n = sorted((c for c in mine if c.n == n), key=lambda c: c.repeat)
