@@ -160,7 +160,7 @@ VERDICT_BADGES = {
     "insufficient data": {"color": "#8c5aa8", "shape": "triangle", "glyph": "dots", "label": "too little data"},
     "power law not shown at this precision": {"color": "#3016bf", "shape": "hexagon", "glyph": "wave",
                                               "label": "not shown at this precision"},
-    "optimisation-limited": {"color": "#b8432f", "shape": "octagon", "glyph": "dots", "label": "optimisation-limited"},
+    "optimisation-limited": {"color": "#c02010", "shape": "octagon", "glyph": "dots", "label": "optimisation-limited"},
 }
 #: The badge of a verdict this module does not know (never an error).
 NEUTRAL_BADGE = {"color": "#8a9098", "shape": "square", "glyph": "query", "label": None}

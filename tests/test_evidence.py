@@ -36,9 +36,12 @@ def test_step_budget_closed_form(n_fit, width, steps):
 
 def test_learning_rate_rule_closed_form():
     b = TrainingBudget(lr_base=1e-2, lr_width_ref=64, lr_width_power=0.5)
-    # lr = lr_base * (64 / width)^0.5: width 256 -> 1e-2 / 2
+    # lr = lr_base * min(1, 64 / width)^0.5: width 256 -> 1e-2 / 2; narrower than 64 keeps lr_base
     assert training_budget(1000, 256, budget=b)["learning_rate"] == pytest.approx(5e-3)
     assert training_budget(1000, 64, budget=b)["learning_rate"] == pytest.approx(1e-2)
+    assert training_budget(1000, 16, budget=b)["learning_rate"] == pytest.approx(1e-2)
+    # the default rule: 1e-2 * 64 / width, e.g. 1e-2 * 64 / 295 at the benchmark's n = 4096
+    assert training_budget(3277, 295)["learning_rate"] == pytest.approx(1e-2 * 64 / 295)
     flat = TrainingBudget(lr_base=3e-3, lr_width_power=0.0)
     assert training_budget(1000, 512, budget=flat)["learning_rate"] == pytest.approx(3e-3)
 

@@ -31,6 +31,8 @@ CONFIGS = {
     "rule, lr 3e-3 (64/w)^0.5": {"budget": {"lr_base": 3e-3, "lr_width_power": 0.5}},
     "rule, lr 1e-2 (64/w)^0.5": {"budget": {"lr_base": 1e-2, "lr_width_power": 0.5}},
     "rule, lr 1e-2 (64/w)^1": {"budget": {"lr_base": 1e-2, "lr_width_power": 1.0}},
+    "500 steps, lr 1e-2 (64/w)^1": {"budget": {"steps_min": 500, "steps_max": 500, "lr_base": 1e-2,
+                                                "lr_width_power": 1.0}},
 }
 
 

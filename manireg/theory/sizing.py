@@ -364,8 +364,9 @@ class TrainingBudget:
     - ``max_steps = multiplier * clip(ceil(epochs * steps per epoch), steps_min, steps_max)``: a small data set
       gets at least ``steps_min`` steps (a full-batch net is not cut off after a few dozen epochs), a large one
       sees its data ``epochs`` times up to ``steps_max``;
-    - learning rate ``= lr_base * (lr_width_ref / width) ** lr_width_power``: wider nets take smaller steps
-      (``lr_width_power = 0`` keeps one rate for every width);
+    - learning rate ``= lr_base * min(1, lr_width_ref / width) ** lr_width_power``: nets wider than
+      ``lr_width_ref`` take smaller steps, narrower ones keep ``lr_base`` (``lr_width_power = 0``: one rate for
+      every width);
     - ``patience_steps`` and ``min_steps`` are at least ``patience_fraction * max_steps``, so a long cosine
       schedule is not stopped while its learning rate is still high.
 
@@ -375,10 +376,10 @@ class TrainingBudget:
         Passes over the fitted rows.
     steps_min, steps_max : int, default=500, 4000
         Floor and ceiling of the step budget (before ``multiplier``).
-    lr_base : float, default=3e-3
+    lr_base : float, default=1e-2
         Peak Adam learning rate at width ``lr_width_ref``.
     lr_width_ref : int, default=64
-    lr_width_power : float, default=0.5
+    lr_width_power : float, default=1
     patience_fraction : float, default=0.2
     multiplier : float, default=1
         Factor on the whole step budget (the budget check trains with 2 and 4).
@@ -387,9 +388,9 @@ class TrainingBudget:
     epochs: float = 20.0
     steps_min: int = 500
     steps_max: int = 4000
-    lr_base: float = 3e-3
+    lr_base: float = 1e-2
     lr_width_ref: int = 64
-    lr_width_power: float = 0.5
+    lr_width_power: float = 1.0
     patience_fraction: float = 0.2
     multiplier: float = 1.0
 
@@ -446,11 +447,11 @@ def training_budget(n_fit, width, *, batch_size=128, full_batch_threshold=256, b
     per_epoch = math.ceil(n_fit / rows)
     base = int(np.clip(math.ceil(b.epochs * per_epoch), b.steps_min, b.steps_max))
     steps = max(1, int(math.ceil(b.multiplier * base)))
-    lr = float(b.lr_base * (b.lr_width_ref / width) ** b.lr_width_power)
+    lr = float(b.lr_base * min(1.0, b.lr_width_ref / width) ** b.lr_width_power)
     patience = int(math.ceil(b.patience_fraction * steps))
     x = "" if b.multiplier == 1 else f"{b.multiplier:g} x "
     rule = (f"max_steps = {x}clip(ceil({b.epochs:g} epochs x {per_epoch} step(s) per epoch), {b.steps_min}, "
-            f"{b.steps_max}) = {steps}; learning_rate = {b.lr_base:g} x ({b.lr_width_ref}/{width})^"
+            f"{b.steps_max}) = {steps}; learning_rate = {b.lr_base:g} x min(1, {b.lr_width_ref}/{width})^"
             f"{b.lr_width_power:g} = {lr:.3g}")
     return {"max_steps": steps, "learning_rate": lr, "patience_steps": patience, "min_steps": patience,
             "epochs": steps * rows / n_fit, "rule": rule}
