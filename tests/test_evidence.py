@@ -83,6 +83,7 @@ def small_campaign_data():
     return Campaign.from_regression_sample(sample, sizes=[40, 80, 160], repeats=2, learners=["knn"]).data
 
 
+@pytest.mark.filterwarnings("ignore:fit_exponent. only 2 repeats")
 def test_evidence_cells_keep_their_own_labels_and_never_retrain(tmp_path):
     from manireg.data import make_regression, manifolds
 
