@@ -5,7 +5,10 @@ registry (:data:`LEARNER_KINDS`; extend it with :func:`register_learner`):
 
 ``"net"``
     A ReLU network sized by :func:`manireg.theory.size_network` (with ``width_multiplier``) and trained by
-    :class:`manireg.nets.training.BatchedTrainer`. Cells of one net learner and one n share one
+    :class:`manireg.nets.training.BatchedTrainer` with the step budget and learning rate of
+    :func:`manireg.theory.sizing.training_budget` for its n and width (``budget``: a dict of
+    :class:`~manireg.theory.sizing.TrainingBudget` fields, or ``"fixed"`` for ``TrainConfig``'s values, which
+    explicit ``max_steps`` / ``learning_rate`` also select; ``budget_multiplier`` scales the steps). Cells of one net learner and one n share one
     architecture, so all their repeats are trained in ONE ``BatchedTrainer.fit`` call. Width multipliers
     are distinct learners (default names ``"net"``, ``"net-w0.5"``, ``"net-w2"``), so one campaign holds a
     capacity sweep.
@@ -456,6 +459,13 @@ class NetClassifierLearner(NetLearner):
 
     def _output_bound(self, data):
         return None  # probabilities are not clipped
+
+    def budget(self):
+        """Classification nets keep ``TrainConfig``'s step cap and learning rate unless a ``budget`` dict is given:
+        the training-budget rule was measured on regression only (docs/theory.md, Training budget)."""
+        if self.spec.params.get("budget") is None:
+            return None
+        return super().budget()
 
     def resolve(self, context) -> dict:
         out = super().resolve(context)
