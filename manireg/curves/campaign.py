@@ -297,8 +297,8 @@ class Campaign:
 
     def evidence_cells(self, settings=None) -> list:
         """The evidence cells that the rows stored so far call for (:func:`manireg.curves.evidence.evidence_cells`):
-        the budget check (2x and 4x the steps) at every size, the capacity check (2x width) at the largest sizes.
-        Keyed like every cell, so running them twice trains nothing twice."""
+        the budget check (2x and 4x the steps) of the flagged cells and of a cell at each end of the curve, the
+        capacity check (2x width) at the largest sizes. Keyed like every cell, so nothing is trained twice."""
         from manireg.curves.evidence import evidence_cells
 
         rows = self.store.rows(self.data.name, keys=[c.key for c in self.cells()])
