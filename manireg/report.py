@@ -380,9 +380,37 @@ def _classification_parts(sec, summary, rows, metric_fits, reference):
                             "marks), fitted curve (solid), fitted floor (dash-dot), optimisation-limited cells (x)."))
 
 
+def _evidence_parts(sec, summary, diagnoses, evidence):
+    """The diagnoses and the evidence cells of the learning-curves section (tables and summary entries)."""
+    import pandas as pd
+
+    if diagnoses:
+        sec.tables.append(("Diagnosis of each curve without a single exponent (cause in words, with its evidence)",
+                           pd.DataFrame([{"learner": d.learner, "verdict": d.verdict, "causes": ", ".join(d.causes),
+                                          "diagnosis": d.text, "evidence": "; ".join(d.evidence)}
+                                         for d in diagnoses.values()])))
+        summary["diagnoses"] = {name: d.to_dict() for name, d in diagnoses.items()}
+    if evidence:
+        frames = []
+        for name, ev in evidence.items():
+            fr = ev.to_frame()
+            if len(fr):
+                fr.insert(0, "learner", name)
+                frames.append(fr)
+        if frames:
+            sec.tables.append(("Evidence cells: the budget check (2x and 4x the steps) and the capacity check (2x width) "
+                               "against the seed spread at each n", pd.concat(frames, ignore_index=True)))
+        capped = [(name, ev.capped_sizes) for name, ev in evidence.items() if ev.capped_sizes]
+        if capped:
+            sec.paragraphs.append("Width capped: " + "; ".join(
+                f"{name}: the width rule hit width_max at n = {', '.join(str(n) for n in sizes)}" for name, sizes in capped))
+        summary["evidence"] = {name: ev.to_dict() for name, ev in evidence.items()}
+
+
 def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campaign=None, fits=None, plan=None,
                    plan_note: str | None = None, extrapolation=None, settings: dict | None = None,
-                   true_dimension=None, theory=None, classification=None, classification_reference=None):
+                   true_dimension=None, theory=None, classification=None, classification_reference=None,
+                   diagnoses=None, evidence=None):
     """Turn finished result objects into report sections and the JSON summary of a campaign.
 
     Parameters
@@ -402,6 +430,12 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
     classification_reference : dict, optional
         The reference exponent of the excess logistic risk (keys formula, smoothness, dimension,
         predicted_exponent, source, conditions, scope), shown and kept as ``summary["classification_reference"]``.
+    diagnoses : dict, optional
+        Learner -> :class:`manireg.curves.evidence.Diagnosis` (:attr:`ReadOut.diagnoses`): why a curve has no
+        single exponent, shown as a table and kept as ``summary["diagnoses"]``.
+    evidence : dict, optional
+        Learner -> :class:`manireg.curves.evidence.LearnerEvidence`: the budget and capacity checks, shown as a
+        table and kept as ``summary["evidence"]``.
 
     Returns
     -------
@@ -511,6 +545,7 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
                                    "and s; the verdict is an interval test)", theory_table_frame(fits, theory)))
                 summary["theory"] = {name: c.to_dict() for name, c in theory.items()}
             summary["optimisation_limited"] = limited
+            _evidence_parts(sec, summary, diagnoses, evidence)
             sec.figures.append(("learning_curves", plots.plot_learning_curves(rows, fits),
                                 "Test error against n: every repeat (small marks), size means (large marks), fitted curve (solid), "
                                 "predicted exponent (long dashes), ambient exponent (dots), fitted floor (dash-dot), "

@@ -160,6 +160,7 @@ VERDICT_BADGES = {
     "insufficient data": {"color": "#8c5aa8", "shape": "triangle", "glyph": "dots", "label": "too little data"},
     "power law not shown at this precision": {"color": "#3016bf", "shape": "hexagon", "glyph": "wave",
                                               "label": "not shown at this precision"},
+    "optimisation-limited": {"color": "#c02010", "shape": "octagon", "glyph": "dots", "label": "optimisation-limited"},
 }
 #: The badge of a verdict this module does not know (never an error).
 NEUTRAL_BADGE = {"color": "#8a9098", "shape": "square", "glyph": "query", "label": None}
@@ -179,6 +180,7 @@ _SHAPES = {
     "triangle": "<polygon points='8,1 15.2,14.6 0.8,14.6'/>",
     "square": "<rect x='1.5' y='1.5' width='13' height='13' rx='2'/>",
     "hexagon": "<polygon points='4.3,1.2 11.7,1.2 15.4,8 11.7,14.8 4.3,14.8 0.6,8'/>",
+    "octagon": "<polygon points='5.1,0.8 10.9,0.8 15.2,5.1 15.2,10.9 10.9,15.2 5.1,15.2 0.8,10.9 0.8,5.1'/>",
 }
 _GLYPHS = {
     "check": "<polyline points='4.3,8.4 7,11 11.8,5.4' fill='none' stroke='#fff' stroke-width='2' stroke-linecap='round' stroke-linejoin='round'/>",

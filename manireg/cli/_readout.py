@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from ._common import UsageError, captured_warnings, say, warn
 
-__all__ = ["read_out", "report_parts"]
+__all__ = ["read_out", "report_parts", "evidence_lines", "summary_lines"]
 
 
 def read_out(result, *, floor, target_error=None, smoothness_range=None, allow_unverified=False, seed=0):
@@ -25,6 +25,8 @@ def read_out(result, *, floor, target_error=None, smoothness_range=None, allow_u
         say()
         say(str(f))
         say("  against theory: " + str(ro.theory[f.learner]))
+        for line in evidence_lines(ro, f.learner):
+            say("  " + line)
     if ro.plan is not None:
         say()
         say("plan: " + str(ro.plan))
@@ -36,7 +38,40 @@ def read_out(result, *, floor, target_error=None, smoothness_range=None, allow_u
                           result.ambient_dim)
     checks = [c for c in ro.extrapolation.values() if not isinstance(c, str)]
     return {"fits": ro.fits, "theory": ro.theory, "extrapolation": checks, "plan": ro.plan, "plan_note": ro.plan_note,
-            "sizing": sizing}
+            "sizing": sizing, "diagnoses": ro.diagnoses, "evidence": ro.evidence}
+
+
+def evidence_lines(ro, learner) -> list:
+    """The diagnosis of a curve (with its evidence) and the flags of its cells, as printed lines."""
+    lines = []
+    ev = ro.evidence.get(learner)
+    if ev is not None and ev.capped_sizes:
+        lines.append(f"width capped: the width rule hit width_max at n = {', '.join(str(n) for n in ev.capped_sizes)}")
+    dg = ro.diagnoses.get(learner)
+    if dg is not None:
+        lines.append("diagnosis: " + dg.text)
+        lines += ["  evidence: " + e for e in dg.evidence]
+    elif ev is not None and ev.checked:
+        from ..curves.evidence import _budget_words
+
+        lines.append("budget check: " + _budget_words(ev))
+    return lines
+
+
+def summary_lines(parts) -> list:
+    """One line per learner of the parts :func:`read_out` returns: exponent with interval, the fit's verdict,
+    the consistency verdict against the learner's own reference rate, and the diagnosis's causes."""
+    from ..style import exponent_text
+
+    out = []
+    for f in parts["fits"]:
+        t = parts["theory"][f.learner]
+        line = f"{f.learner}: {exponent_text(f, 3)}; theory: {t.verdict}"
+        dg = parts["diagnoses"].get(f.learner)
+        if dg is not None:
+            line += f"; diagnosis: {', '.join(dg.causes)}"
+        out.append(line)
+    return out
 
 
 def report_parts(result, floor, settings: dict) -> dict:

@@ -48,6 +48,9 @@ def add_parser(sub):
     add_floor_option(p)
     p.add_argument("--target-error", type=float, metavar="E", help="plan the samples for this test error")
     p.add_argument("--allow-unverified", action="store_true", help="plan even from a curve without a measured exponent")
+    p.add_argument("--evidence", action="store_true",
+                   help="after the curve, run the evidence cells of the nets (the budget check: 2x and 4x the steps; the "
+                        "capacity check: 2x width at the largest sizes), stored under their own labels; they gate the verdict")
     p.add_argument("--no-geometry", action="store_true", help="skip the geometry read-out (needs --dimension)")
     p.add_argument("--no-view", action="store_true", help="skip the 2-D view in the geometry read-out")
     p.add_argument("--on-disk", action="store_true",
@@ -194,7 +197,11 @@ def run(args) -> int:
     if state["finished"]:
         say(f"resuming: {state['finished']} cells already in the store, {state['remaining']} to run")
     result = campaign.run(executor=executor, n_jobs=args.workers, scheduler=args.scheduler, progress=not args.quiet,
-                          metadata=extra)
+                          metadata=extra, evidence=bool(args.evidence) and not classify)
+    if args.evidence and not classify:
+        ev = (result.summary or {}).get("evidence") or {}
+        say(f"evidence cells (budget and capacity checks of the nets): {ev.get('total', 0)} "
+            f"({ev.get('skipped', 0)} already in the store)")
     if classify:
         metric_fits = classification_read_out(result, args.seed)
         settings = report_parts(result, "fit", {
@@ -219,7 +226,7 @@ def run(args) -> int:
     settings = report_parts(result, floor, {
         "seed": args.seed, "sizes": campaign.data.sizes, "repeats": args.repeats,
         "learners": [l.name for l in campaign.data.learners], "precision": args.precision,
-        "smoothness_range": s_range, "sizing_constants": sizing or None})
+        "smoothness_range": s_range, "sizing_constants": sizing or None, "evidence": bool(args.evidence)})
     write(out, f"manireg curves: {os.path.basename(args.data)}",
           data={"source": args.data, "target": args.target, "n_samples": table.n_samples, "ambient_dim": D},
           geometry=geo, campaign=result, settings=settings, **parts)

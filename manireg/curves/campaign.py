@@ -78,7 +78,24 @@ class CampaignResult(ResultMixin):
     noise_estimate_interval: tuple | None = None
     dimension_interval: tuple | None = None
     summary: dict = field(default_factory=dict)
-    _skip_in_dict = ("rows",)
+    evidence: object = field(default=None, repr=False)
+    _skip_in_dict = ("rows", "evidence")
+
+    def __post_init__(self):
+        from manireg.curves.evidence import add_cell_columns
+
+        if self.rows is not None and len(self.rows) and "width_capped" not in self.rows:
+            nv = self.noise_variance if self.noise_variance is not None else self.noise_estimate
+            self.rows = add_cell_columns(self.rows, nv)
+
+    def evidence_summary(self, metric="test_mse") -> dict:
+        """Learner -> :class:`~manireg.curves.evidence.LearnerEvidence`: the evidence cells (budget and capacity
+        checks, stored under their own labels in :attr:`evidence`) read against each net's main curve, with the
+        sizes where the width rule hit ``width_max`` and training MSE over the noise variance."""
+        from manireg.curves.evidence import summarise_evidence
+
+        nv = self.noise_variance if self.noise_variance is not None else self.noise_estimate
+        return summarise_evidence(self.rows, self.evidence, metric=metric, noise_variance=nv)
 
     def to_frame(self):
         """The rows (a copy)."""
@@ -90,7 +107,7 @@ class CampaignResult(ResultMixin):
 
     def fit_settings(self, **kwargs) -> dict:
         """Keyword arguments of :func:`~manireg.curves.fitting.fit_exponent` for this campaign: ``dimension``,
-        ``smoothness`` and ``ambient_dim`` default to the campaign's, and ``floor`` (default ``"estimate"``) is
+        ``smoothness`` and ``ambient_dim`` default to the campaign's, and ``floor`` (default ``DEFAULT_FLOOR``, ``"fit"``) is
         turned into fit arguments by :func:`~manireg.curves.floors.choose_floor` with the campaign's noise
         estimate and its interval."""
         kwargs.setdefault("smoothness", self.smoothness)
@@ -129,14 +146,15 @@ class CampaignResult(ResultMixin):
                         smoothness=self.smoothness if smoothness is None else smoothness, ambient_dim=self.ambient_dim,
                         noise_estimate=self.noise_level, floor=floor, target_error=target_error,
                         learner_kinds=kinds or None, seed=seed, metric=metric, level=level,
-                        allow_unverified=allow_unverified)
+                        allow_unverified=allow_unverified, evidence=self.evidence_summary(metric),
+                        noise_variance=self.noise_variance)
 
     def fit(self, learner=None, **kwargs):
         """Fitted exponent of one learner (:func:`manireg.curves.fitting.fit_exponent`).
 
         ``smoothness``, ``dimension`` and ``ambient_dim`` default to the campaign's; ``floor`` takes the
-        choices of :func:`~manireg.curves.floors.choose_floor` (default ``"estimate"``: the campaign's noise
-        estimate).
+        choices of :func:`~manireg.curves.floors.choose_floor` (default ``DEFAULT_FLOOR``, ``"fit"``: a floor fitted
+        within the interval of the campaign's noise estimate).
         With several learners and ``learner=None`` this returns :meth:`fit_all`.
 
         References
@@ -249,13 +267,18 @@ class Campaign:
         return {"total": len(keys), "finished": done, "remaining": len(keys) - done}
 
     def run(self, executor="inprocess", n_jobs=None, scheduler=None, retry_failed=False, progress=True,
-            torch_threads=1, stop=None, on_unit=None, metadata=None) -> CampaignResult:
+            torch_threads=1, stop=None, on_unit=None, metadata=None, evidence=False) -> CampaignResult:
         """Run the missing cells and return every row of this campaign's cells.
 
         See :func:`manireg.curves.execution.run_cells` for the arguments (``stop`` pauses between units,
         ``on_unit`` is called after each stored unit). ``metadata`` (a dict, e.g. the geometry read-out) is
         stored with the campaign's own metadata, so a report rebuilt from the store has it. Interrupting (Ctrl-C)
         keeps what finished; calling ``run`` again resumes.
+
+        ``evidence=True`` (or an :class:`~manireg.curves.evidence.EvidenceSettings`) then runs the missing
+        evidence cells of the net learners (:meth:`run_evidence`): the budget check and the capacity check,
+        stored under their own learner labels; :attr:`CampaignResult.evidence` holds their rows and the
+        read-out gates the verdicts with them.
         """
         cells = self.cells()
         noise = self.noise_level()
@@ -264,7 +287,30 @@ class Campaign:
         summary = run_cells(cells, self.data, self.store, executor=executor, n_jobs=n_jobs, scheduler=scheduler,
                             progress=progress, retry_failed=retry_failed, torch_threads=torch_threads,
                             stop=stop, on_unit=on_unit)
+        if evidence is not False and evidence is not None and not (stop is not None and stop.is_set()):
+            settings = evidence if not isinstance(evidence, bool) else None
+            extra = self.run_evidence(settings, executor=executor, n_jobs=n_jobs, scheduler=scheduler,
+                                      progress=progress, retry_failed=retry_failed, torch_threads=torch_threads,
+                                      stop=stop, on_unit=on_unit)
+            summary = dict(summary, evidence=dict(extra))
         return self.result(summary)
+
+    def evidence_cells(self, settings=None) -> list:
+        """The evidence cells that the rows stored so far call for (:func:`manireg.curves.evidence.evidence_cells`):
+        the budget check (2x and 4x the steps) of the flagged cells and of a cell at each end of the curve, the
+        capacity check (2x width) at the largest sizes. Keyed like every cell, so nothing is trained twice."""
+        from manireg.curves.evidence import evidence_cells
+
+        rows = self.store.rows(self.data.name, keys=[c.key for c in self.cells()])
+        return evidence_cells(self.cells(), rows, self.data, settings)
+
+    def run_evidence(self, settings=None, **run_kwargs) -> dict:
+        """Run the missing evidence cells (:meth:`evidence_cells`); ``run_kwargs`` as for :meth:`run`. Only cells
+        not yet in the store are trained. Returns the run summary."""
+        cells = self.evidence_cells(settings)
+        if not cells:
+            return {"total": 0, "skipped": 0, "ran": 0, "failed": 0}
+        return run_cells(cells, self.data, self.store, **run_kwargs)
 
     def noise_estimate(self) -> float:
         """Label-noise variance estimated from the rows outside the test set (the Gamma test; see
@@ -288,8 +334,14 @@ class Campaign:
 
     def result(self, summary=None) -> CampaignResult:
         """The rows stored so far for this campaign's cells (no training)."""
-        rows = self.store.rows(self.data.name, keys=[c.key for c in self.cells()])
-        return CampaignResult(rows=rows, spec=self.spec.to_dict(), dimension=self.data.dimension,
+        from manireg.curves.evidence import evidence_rows
+
+        keys = [c.key for c in self.cells()]
+        rows = self.store.rows(self.data.name, keys=keys)
+        _, extra = evidence_rows(self.store.rows(self.data.name))
+        if len(extra):
+            extra = extra[extra["checked_key"].isin(set(keys))].reset_index(drop=True)
+        return CampaignResult(rows=rows, evidence=extra, spec=self.spec.to_dict(), dimension=self.data.dimension,
                               smoothness=self.data.smoothness, ambient_dim=self.data.ambient_dim,
                               name=self.data.name, store_path=self.store.path,
                               noise_variance=self.data.noise_variance, noise_estimate=self.noise_estimate(),
@@ -330,7 +382,10 @@ class Campaign:
         if fp is not None and len(rows):
             same = rows["config_json"].map(lambda s: json.loads(s).get("data") == fp if s else False)
             rows = rows[same.to_numpy(dtype=bool)].reset_index(drop=True)
-        return CampaignResult(rows=rows, spec=meta.get("spec") or {}, dimension=meta.get("dimension"),
+        from manireg.curves.evidence import evidence_rows
+
+        rows, extra = evidence_rows(rows)
+        return CampaignResult(rows=rows, evidence=extra, spec=meta.get("spec") or {}, dimension=meta.get("dimension"),
                               smoothness=meta.get("smoothness"), ambient_dim=meta.get("ambient_dim"),
                               name=campaign, store_path=path, noise_variance=meta.get("noise_variance"),
                               noise_estimate=meta.get("noise_estimate"),

@@ -48,6 +48,7 @@ __all__ = [
     "VERDICT_NOT_POWER_LAW",
     "VERDICT_INSUFFICIENT",
     "VERDICT_NOT_SHOWN",
+    "VERDICT_OPTIMISATION_LIMITED",
     "VERDICTS",
     "FloorChoice",
     "floor_model",
@@ -61,8 +62,12 @@ VERDICT_MEASURED = "measured"
 VERDICT_NOT_POWER_LAW = "not a power law over this range"
 VERDICT_INSUFFICIENT = "insufficient data"
 VERDICT_NOT_SHOWN = "power law not shown at this precision"
+#: Given by the budget check (:func:`manireg.curves.evidence.gate_verdict`), never by ``fit_exponent`` alone:
+#: retraining with more steps moved cells at an end of the curve by more than the seed spread.
+VERDICT_OPTIMISATION_LIMITED = "optimisation-limited"
 #: Every verdict a fit can give.
-VERDICTS = (VERDICT_MEASURED, VERDICT_NOT_POWER_LAW, VERDICT_NOT_SHOWN, VERDICT_INSUFFICIENT)
+VERDICTS = (VERDICT_MEASURED, VERDICT_NOT_POWER_LAW, VERDICT_NOT_SHOWN, VERDICT_INSUFFICIENT,
+            VERDICT_OPTIMISATION_LIMITED)
 
 REQUIRED_COLUMNS = ("learner", "n", "repeat", "test_mse")
 OPTIMISATION_CAPS = ("step_cap", "time_cap")

@@ -5,7 +5,10 @@ registry (:data:`LEARNER_KINDS`; extend it with :func:`register_learner`):
 
 ``"net"``
     A ReLU network sized by :func:`manireg.theory.size_network` (with ``width_multiplier``) and trained by
-    :class:`manireg.nets.training.BatchedTrainer`. Cells of one net learner and one n share one
+    :class:`manireg.nets.training.BatchedTrainer` with the step budget and learning rate of
+    :func:`manireg.theory.sizing.training_budget` for its n and width (``budget``: a dict of
+    :class:`~manireg.theory.sizing.TrainingBudget` fields, or ``"fixed"`` for ``TrainConfig``'s values, which
+    explicit ``max_steps`` / ``learning_rate`` also select; ``budget_multiplier`` scales the steps). Cells of one net learner and one n share one
     architecture, so all their repeats are trained in ONE ``BatchedTrainer.fit`` call. Width multipliers
     are distinct learners (default names ``"net"``, ``"net-w0.5"``, ``"net-w2"``), so one campaign holds a
     capacity sweep.
@@ -199,7 +202,7 @@ class NetLearner(Learner):
 
     kind = "net"
     batchable = True
-    _own = ("width_multiplier", "constants", "output_bound")
+    _own = ("width_multiplier", "constants", "output_bound", "budget", "budget_multiplier")
 
     @classmethod
     def allowed_params(cls):
@@ -216,6 +219,14 @@ class NetLearner(Learner):
         ob = params.get("output_bound", "auto")
         if not (ob is None or ob == "auto" or (isinstance(ob, (int, float)) and not isinstance(ob, bool) and ob > 0)):
             raise ValueError(f"the 'output_bound' parameter of LearnerSpec('net') must be 'auto', None or a real > 0; got {ob!r}.")
+        bm = params.get("budget_multiplier", 1.0)
+        if isinstance(bm, bool) or not isinstance(bm, (int, float)) or not (math.isfinite(bm) and bm > 0):
+            raise ValueError(f"the 'budget_multiplier' parameter of LearnerSpec('net') must be a real > 0; got {bm!r}.")
+        b = params.get("budget")
+        if not (b is None or b == "fixed" or isinstance(b, dict)):
+            raise ValueError(f"the 'budget' parameter of LearnerSpec('net') must be None (the default step and "
+                             f"learning-rate rules), 'fixed' (TrainConfig's max_steps and learning_rate as given) or a "
+                             f"dict of TrainingBudget fields; got {b!r}.")
 
     @classmethod
     def default_name(cls, params) -> str:
@@ -231,15 +242,53 @@ class NetLearner(Learner):
         constants = SizingConstants(**dict(p.get("constants") or {}))
         return train, constants
 
+    def budget(self):
+        """The :class:`~manireg.theory.sizing.TrainingBudget` of this learner, or None when the step budget and
+        learning rate are fixed: ``budget="fixed"``, or ``max_steps`` / ``learning_rate`` given explicitly (those
+        then keep their values at every n; ``budget_multiplier`` still multiplies the steps)."""
+        from manireg.theory.sizing import TrainingBudget
+
+        p = self.spec.params
+        b = p.get("budget")
+        if b == "fixed" or (b is None and ("max_steps" in p or "learning_rate" in p)):
+            return None
+        return TrainingBudget(**{**dict(b or {}), "multiplier": float(p.get("budget_multiplier", 1.0))})
+
+    def train_config(self, n, data, arch=None):
+        """The :class:`~manireg.nets.training.TrainConfig` of the cells of size ``n``: the step budget and the
+        learning rate of :func:`~manireg.theory.sizing.training_budget` for this n and this net's width."""
+        from manireg.theory.sizing import training_budget
+
+        train, _ = self._configs()
+        b = self.budget()
+        if b is None:
+            bm = float(self.spec.params.get("budget_multiplier", 1.0))
+            if bm == 1.0:
+                return train
+            steps = max(1, int(math.ceil(bm * train.max_steps)))
+            return dataclasses.replace(train, max_steps=steps)
+        arch = self.architecture(n, data) if arch is None else arch
+        r = training_budget(n - data.n_val(n), arch.width, batch_size=train.batch_size,
+                            full_batch_threshold=train.full_batch_threshold, budget=b)
+        return dataclasses.replace(train, max_steps=r["max_steps"], learning_rate=r["learning_rate"],
+                                   patience_steps=max(train.patience_steps, r["patience_steps"]),
+                                   min_steps=max(train.min_steps, r["min_steps"]))
+
     def resolve(self, context) -> dict:
         train, constants = self._configs()
         ob = self.spec.params.get("output_bound", "auto")
-        return {
+        out = {
             "width_multiplier": float(self.spec.params.get("width_multiplier", 1.0)),
             "output_bound": ob if ob in (None, "auto") else float(ob),
             "constants": dataclasses.asdict(constants),
             "train": dataclasses.asdict(train),
         }
+        b = self.budget()
+        if b is not None:  # the step and learning-rate rules replace train's max_steps and learning_rate
+            out["budget"] = dataclasses.asdict(b)
+        elif float(self.spec.params.get("budget_multiplier", 1.0)) != 1.0:
+            out["budget_multiplier"] = float(self.spec.params["budget_multiplier"])
+        return out
 
     def architecture(self, n, data):
         from manireg.theory.sizing import size_network
@@ -252,8 +301,8 @@ class NetLearner(Learner):
     def cell_cost(self, n, data) -> float:
         """Training steps (``6 * parameters * rows`` per step, ``max_steps`` steps), the validation passes
         and the final evaluation of one replica, in flops."""
-        train, _ = self._configs()
         arch = self.architecture(n, data)
+        train = self.train_config(n, data, arch)
         n_val = int(round(data.validation_fraction * n))
         n_fit = n - n_val
         rows = n_fit if n_fit <= train.full_batch_threshold else min(train.batch_size, n_fit)
@@ -280,8 +329,8 @@ class NetLearner(Learner):
         ns = {c.n for c in cells}
         if len(ns) != 1:
             raise ValueError(f"NetLearner.run: cells of one call must share n; got sizes {sorted(ns)}.")
-        train, _ = self._configs()
         arch = self.architecture(cells[0].n, data)
+        train = self.train_config(cells[0].n, data, arch)
         tasks = []
         for c in cells:
             Xf, yf, Xv, yv = data.cell_split(c)
@@ -411,6 +460,13 @@ class NetClassifierLearner(NetLearner):
     def _output_bound(self, data):
         return None  # probabilities are not clipped
 
+    def budget(self):
+        """Classification nets keep ``TrainConfig``'s step cap and learning rate unless a ``budget`` dict is given:
+        the training-budget rule was measured on regression only (docs/theory.md, Training budget)."""
+        if self.spec.params.get("budget") is None:
+            return None
+        return super().budget()
+
     def resolve(self, context) -> dict:
         out = super().resolve(context)
         out.pop("output_bound")
@@ -426,8 +482,8 @@ class NetClassifierLearner(NetLearner):
         ns = {c.n for c in cells}
         if len(ns) != 1:
             raise ValueError(f"NetClassifierLearner.run: cells of one call must share n; got sizes {sorted(ns)}.")
-        train, _ = self._configs()
         arch = self.architecture(cells[0].n, data)
+        train = self.train_config(cells[0].n, data, arch)
         tasks = []
         for c in cells:
             Xf, yf, Xv, yv = data.cell_split(c)

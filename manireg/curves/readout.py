@@ -50,6 +50,13 @@ class ReadOut(ResultMixin):
         The floor choice passed to the fits and in words.
     working_dimension : float
         The dimension the plan sizes its network with (:func:`manireg.geometry.summary.working_dimension`).
+    diagnoses : dict
+        Learner -> :class:`manireg.curves.evidence.Diagnosis` for every curve whose verdict is not
+        "measured": the cause in words (optimiser, capacity, noise floor, log factor, pre-asymptotic) with
+        its evidence.
+    evidence : dict
+        Learner -> :class:`manireg.curves.evidence.LearnerEvidence` (net learners): budget and capacity
+        checks, sizes where the width rule hit ``width_max``, training MSE over the noise variance.
     """
 
     fits: object
@@ -67,6 +74,8 @@ class ReadOut(ResultMixin):
     working_dimension: float
     learner_kinds: dict
     warnings: list = field(default_factory=list)
+    diagnoses: dict = field(default_factory=dict)
+    evidence: dict = field(default_factory=dict)
 
     def to_frame(self):
         """One row per learner: the fit's row plus the theory verdict and predicted interval."""
@@ -74,6 +83,7 @@ class ReadOut(ResultMixin):
         frame["theory_verdict"] = [self.theory[name].verdict for name in frame["learner"]]
         frame["predicted_lo"] = [self.theory[name].predicted_exponent[0] for name in frame["learner"]]
         frame["predicted_hi"] = [self.theory[name].predicted_exponent[1] for name in frame["learner"]]
+        frame["diagnosis"] = [self.diagnoses[name].text if name in self.diagnoses else "" for name in frame["learner"]]
         return frame
 
     def __str__(self) -> str:
@@ -81,6 +91,8 @@ class ReadOut(ResultMixin):
         for f in self.fits:
             lines.append(str(f))
             lines.append("  theory: " + str(self.theory[f.learner]))
+            if f.learner in self.diagnoses:
+                lines.append("  diagnosis: " + self.diagnoses[f.learner].text)
         lines.append("plan: " + (str(self.plan) if self.plan is not None else "none"))
         if self.plan_note:
             lines.append(self.plan_note)
@@ -89,7 +101,7 @@ class ReadOut(ResultMixin):
 
 def read_out(rows, *, dimension, dimension_interval=None, smoothness, ambient_dim=None, noise_estimate=None,
              floor=DEFAULT_FLOOR, target_error=None, learner_kinds=None, seed=0, metric="test_mse", level=0.95,
-             allow_unverified=False) -> ReadOut:
+             allow_unverified=False, evidence=None, noise_variance=None) -> ReadOut:
     """Fit every learner, compare each with its own reference rate, check extrapolation and plan.
 
     Parameters
@@ -114,6 +126,13 @@ def read_out(rows, *, dimension, dimension_interval=None, smoothness, ambient_di
         Learner name -> kind ("net", "knn", "kernel_ridge"); default from the name.
     seed, metric, level, allow_unverified
         Passed on.
+    evidence : dict, optional
+        Learner -> :class:`~manireg.curves.evidence.LearnerEvidence`
+        (:meth:`CampaignResult.evidence_summary`): the budget check gates the verdicts
+        (:func:`~manireg.curves.evidence.gate_verdict`) and every check feeds the diagnoses.
+    noise_variance : float, optional
+        The known label-noise variance (synthetic data); else the noise estimate's value is used for the
+        noise-floor diagnosis.
 
     Returns
     -------
@@ -142,12 +161,25 @@ def read_out(rows, *, dimension, dimension_interval=None, smoothness, ambient_di
             else:
                 checks[f.learner] = "no extrapolation check: fewer than 4 sizes"
     caught_msgs = sorted({str(w.message) for w in caught})
+    from .evidence import diagnose, gate_verdict
+
+    evidence = dict(evidence or {})
+    for name in list(fits.fits):
+        fits.fits[name] = gate_verdict(fits.fits[name], evidence.get(name))
     kinds = {f.learner: learner_kind_of(f.learner, learner_kinds) for f in fits}
     theory = {
         f.learner: compare_with_theory(f, dimension, smoothness, ambient_dim, learner_kind=kinds[f.learner],
                                        dimension_interval=dimension_interval)
         for f in fits
     }
+    if noise_variance is None and noise_estimate is not None:
+        noise_variance = getattr(noise_estimate, "value", noise_estimate)
+    nv_metric = noise_variance if metric == "test_mse" else None
+    diagnoses = {}
+    for f in fits:
+        dg = diagnose(f, evidence.get(f.learner), theory=theory[f.learner], noise_variance=nv_metric)
+        if dg is not None:
+            diagnoses[f.learner] = dg
     plan, plan_note = None, ""
     measured = [f for f in fits if f.verdict == "measured"]
     pool = measured or ([f for f in fits if math.isfinite(f.exponent) and f.exponent > 0] if allow_unverified else [])
@@ -170,5 +202,5 @@ def read_out(rows, *, dimension, dimension_interval=None, smoothness, ambient_di
         fits=fits, theory=theory, extrapolation=checks, plan=plan, plan_note=plan_note, floor=fl, floor_note=note,
         metric=metric, dimension=float(dimension), dimension_interval=None if dimension_interval is None else
         tuple(float(v) for v in dimension_interval), smoothness=smoothness, ambient_dim=ambient_dim,
-        working_dimension=d_work, learner_kinds=kinds, warnings=caught_msgs,
+        working_dimension=d_work, learner_kinds=kinds, warnings=caught_msgs, diagnoses=diagnoses, evidence=evidence,
     )

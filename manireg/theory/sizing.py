@@ -26,7 +26,8 @@ from manireg._validation import check_float, check_int
 from manireg.theory.rates import regression_exponent
 
 __all__ = ["SizingConstants", "ArchitectureSpec", "SizingTable", "size_network", "sizing_table", "dense_parameter_count",
-           "ConvArchitectureSpec", "size_conv_network", "conv_parameter_count"]
+           "ConvArchitectureSpec", "size_conv_network", "conv_parameter_count",
+           "TrainingBudget", "training_budget", "width_capped"]
 
 
 @dataclass(frozen=True)
@@ -477,3 +478,115 @@ def size_conv_network(n, d, s, input_shape, constants=None, *, c_channels=1.0, c
         "n_parameters": "stem 9*C*c + c, per block 2*(9*c^2 + c) (+ c^2 skip when strided), head (c+1)*w + (w+1)*K",
     }
     return ConvArchitectureSpec(shape, channels, n_blocks, head, n_outputs, rules=rules)
+
+
+def width_capped(n, d, s, constants=None, width_multiplier=1.0) -> bool:
+    """True when the width rule ``ceil(width_multiplier * c_width * n^(d/(2s+d)))`` exceeds ``width_max``, i.e.
+    :func:`size_network` clipped the width at its upper bound (the net is narrower than the rule asks)."""
+    c = SizingConstants() if constants is None else constants
+    a = 1.0 - regression_exponent(d, s)
+    return bool(math.ceil(float(width_multiplier) * c.c_width * float(n) ** a) > c.width_max)
+
+
+@dataclass(frozen=True)
+class TrainingBudget:
+    """How many optimiser steps and which learning rate a campaign net gets, from its data and its size.
+
+    Rules (documented with the measured search behind them in docs/theory.md):
+
+    - steps per epoch ``= ceil(n_fit / rows)`` with ``rows = n_fit`` (full batch, ``n_fit <=
+      full_batch_threshold``) or ``batch_size``;
+    - ``max_steps = multiplier * clip(ceil(epochs * steps per epoch), steps_min, steps_max)``: a small data set
+      gets at least ``steps_min`` steps (a full-batch net is not cut off after a few dozen epochs), a large one
+      sees its data ``epochs`` times up to ``steps_max``;
+    - learning rate ``= lr_base * min(1, lr_width_ref / width) ** lr_width_power``: nets wider than
+      ``lr_width_ref`` take smaller steps, narrower ones keep ``lr_base`` (``lr_width_power = 0``: one rate for
+      every width);
+    - ``patience_steps`` and ``min_steps`` are at least ``patience_fraction * max_steps``, so a long cosine
+      schedule is not stopped while its learning rate is still high.
+
+    Attributes
+    ----------
+    epochs : float, default=20
+        Passes over the fitted rows.
+    steps_min, steps_max : int, default=500, 4000
+        Floor and ceiling of the step budget (before ``multiplier``).
+    lr_base : float, default=1e-2
+        Peak Adam learning rate at width ``lr_width_ref``.
+    lr_width_ref : int, default=64
+    lr_width_power : float, default=1
+    patience_fraction : float, default=0.2
+    multiplier : float, default=1
+        Factor on the whole step budget (the budget check trains with 2 and 4).
+    """
+
+    epochs: float = 20.0
+    steps_min: int = 500
+    steps_max: int = 4000
+    lr_base: float = 1e-2
+    lr_width_ref: int = 64
+    lr_width_power: float = 1.0
+    patience_fraction: float = 0.2
+    multiplier: float = 1.0
+
+    def __post_init__(self):
+        check_params(vars(self), BUDGET_RULES, owner="TrainingBudget")
+
+
+#: What each :class:`TrainingBudget` field may hold.
+BUDGET_RULES = {
+    "epochs": real(0.0, low_open=True),
+    "steps_min": integer(1),
+    "steps_max": integer("steps_min"),
+    "lr_base": real(0.0, low_open=True),
+    "lr_width_ref": integer(1),
+    "lr_width_power": real(0.0, 2.0),
+    "patience_fraction": real(0.0, 1.0),
+    "multiplier": real(0.0, low_open=True),
+}
+
+
+def training_budget(n_fit, width, *, batch_size=128, full_batch_threshold=256, budget=None) -> dict:
+    """Steps, learning rate and patience of one net by the rules of :class:`TrainingBudget`.
+
+    Parameters
+    ----------
+    n_fit : int
+        Rows the net is fitted on (a cell's n minus its validation part).
+    width : int
+        Hidden width of the net.
+    batch_size, full_batch_threshold : int
+        The trainer's settings (:class:`manireg.nets.training.TrainConfig`).
+    budget : TrainingBudget, optional
+
+    Returns
+    -------
+    dict
+        ``max_steps``, ``learning_rate``, ``patience_steps``, ``min_steps`` (for ``TrainConfig``), and
+        ``epochs`` (passes over the fitted rows the step budget allows) and ``rule`` (in words).
+
+    Examples
+    --------
+    >>> training_budget(200, 32)["max_steps"]     # full batch: 20 epochs are 20 steps, the floor wins
+    500
+    >>> training_budget(12800, 200)["max_steps"]  # 100 minibatch steps per epoch, 20 epochs
+    2000
+    """
+    b = TrainingBudget() if budget is None else budget
+    if not isinstance(b, TrainingBudget):
+        raise ValueError(f"the 'budget' parameter of training_budget must be a TrainingBudget or None; got "
+                         f"{type(b).__name__}. Build one with TrainingBudget(epochs=...).")
+    n_fit = check_int(n_fit, "n_fit", owner="training_budget", low=1)
+    width = check_int(width, "width", owner="training_budget", low=1)
+    rows = n_fit if n_fit <= full_batch_threshold else min(int(batch_size), n_fit)
+    per_epoch = math.ceil(n_fit / rows)
+    base = int(np.clip(math.ceil(b.epochs * per_epoch), b.steps_min, b.steps_max))
+    steps = max(1, int(math.ceil(b.multiplier * base)))
+    lr = float(b.lr_base * min(1.0, b.lr_width_ref / width) ** b.lr_width_power)
+    patience = int(math.ceil(b.patience_fraction * steps))
+    x = "" if b.multiplier == 1 else f"{b.multiplier:g} x "
+    rule = (f"max_steps = {x}clip(ceil({b.epochs:g} epochs x {per_epoch} step(s) per epoch), {b.steps_min}, "
+            f"{b.steps_max}) = {steps}; learning_rate = {b.lr_base:g} x min(1, {b.lr_width_ref}/{width})^"
+            f"{b.lr_width_power:g} = {lr:.3g}")
+    return {"max_steps": steps, "learning_rate": lr, "patience_steps": patience, "min_steps": patience,
+            "epochs": steps * rows / n_fit, "rule": rule}
