@@ -226,3 +226,46 @@ def test_digits_dimension_and_campaign(tmp_path):
             fit = fit_exponent(rows, learner, metric="test_error_rate", floor=None)
         assert fit.verdict in VERDICTS
         assert fit.exponent > 0
+
+
+def test_cli_conv_image_shape_and_label_column_errors(tmp_path, capsys):
+    # --image-shape that does not match the columns, --image-shape without a conv learner, and a misspelt label
+    # column: exit 2 with one line naming the fix; no store is created
+    rng = np.random.default_rng(0)
+    path = tmp_path / "img.csv"
+    pd.DataFrame(rng.normal(size=(120, 16)), columns=[f"p{i}" for i in range(16)]).assign(
+        label=np.arange(120) % 2).to_csv(path, index=False)
+    store = tmp_path / "s.sqlite"
+    common = ["--task", "classify", "--dimension", "2", "--no-geometry", "--sizes", "40", "80", "--store", str(store),
+              "--out", str(tmp_path / "out"), "--quiet"]
+    cases = [(["--target", "label", "--learners", "conv_classifier", "--image-shape", "3", "5"], "image_shape (1, 3, 5)"),
+             (["--target", "label", "--learners", "knn_classifier", "--image-shape", "4", "4"], "add conv_net"),
+             (["--target", "lable"], "Did you mean 'label'?")]
+    for extra, message in cases:
+        assert main(["curves", str(path)] + common + extra) == 2
+        err = capsys.readouterr().err.strip().splitlines()
+        assert len(err) == 1 and message in err[0], err
+        assert not store.exists()
+
+
+def test_core_classification_read_out_is_the_fit_with_the_table_floor():
+    # the one core call the CLI, the report and the panel format: each metric's fit equals fit_exponent with the
+    # floor of CLASSIFY_METRICS; metrics without values are left out
+    from manireg.curves.fitting import fit_exponent
+    from manireg.curves.readout import CLASSIFY_METRICS, classification_read_out
+
+    rng = np.random.default_rng(3)
+    rows = []
+    for n in (50, 100, 200, 400, 800, 1600):
+        for r in range(3):
+            rows.append({"learner": "a", "n": n, "repeat": r, "status": "ok",
+                         "test_error_rate": 0.1 + 2 * n ** -0.5 * np.exp(rng.normal(0, 0.05)),
+                         "calibration_error": n ** -0.4 * np.exp(rng.normal(0, 0.05))})
+    rows = pd.DataFrame(rows)
+    ro = classification_read_out(rows, smoothness=1.0, dimension=2.0)
+    assert list(ro.fits) == ["test_error_rate", "calibration_error"]
+    for metric, fits in ro.fits.items():
+        direct = fit_exponent(rows, "a", metric=metric, floor=CLASSIFY_METRICS[metric])
+        assert fits[0].exponent == pytest.approx(direct.exponent) and fits[0].interval == pytest.approx(direct.interval)
+    assert ro.reference["predicted_exponent"] == pytest.approx(logistic_excess_risk_exponent(1.0, 2.0))
+    assert set(ro.to_frame()["metric"]) == {"test_error_rate", "calibration_error"}

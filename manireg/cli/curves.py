@@ -7,16 +7,13 @@ import os
 from ._common import (UsageError, add_data_options, add_floor_option, add_run_options, add_store_options, load,
                       out_dir, parse_floor_option, parse_sizing, say)
 from ._readout import read_out, report_parts
+from ..curves.readout import CLASSIFY_METRICS, classification_reference
 from .report import write
 
 HELP = "run or resume a learning-curve campaign on a data file and write its report"
-REGRESS = ("net", "knn", "kernel_ridge")
-CLASSIFY = ("net_classifier", "knn_classifier", "logistic")
-#: metrics a classification campaign fits (those with values in the rows), with the floor of each fit: the
-#: error rate and cross-entropy level off at the Bayes risk (unknown on real data: fitted); the excess risks
-#: and the calibration error of a consistent classifier go to zero (no floor)
-CLASSIFY_METRICS = {"test_error_rate": "fit", "excess_error_rate": None, "excess_logistic_risk": None,
-                    "test_cross_entropy": "fit", "calibration_error": None}
+REGRESS = ("net", "knn", "kernel_ridge", "conv_net")
+CLASSIFY = ("net_classifier", "knn_classifier", "logistic", "conv_classifier")
+CONV = ("conv_net", "conv_classifier")
 
 
 def add_parser(sub):
@@ -33,8 +30,12 @@ def add_parser(sub):
     p.add_argument("--task", default="regress", choices=["regress", "classify"],
                    help="regress a numeric target, or classify labels (integers or strings) (default: %(default)s)")
     p.add_argument("--learners", nargs="+", default=None, choices=list(REGRESS + CLASSIFY),
-                   metavar="LEARNER", help="regress: net, knn, kernel_ridge (default: net knn); classify: net_classifier, "
-                                           "knn_classifier, logistic (default: all three)")
+                   metavar="LEARNER", help="regress: net, knn, kernel_ridge, conv_net (default: net knn); classify: "
+                                           "net_classifier, knn_classifier, logistic, conv_classifier (default: the "
+                                           "first three). conv_net and conv_classifier read each row as an image")
+    p.add_argument("--image-shape", type=int, nargs="+", metavar="N",
+                   help="H W or C H W of the image each row holds, for conv_net / conv_classifier (default: square "
+                        "grey images when the feature count is a square)")
     p.add_argument("--width-multipliers", type=float, nargs="+", metavar="M",
                    help="extra nets with these multiples of the rule's width (a capacity sweep; the rule's own width is always included)")
     p.add_argument("--sizing", nargs="+", metavar="NAME=VALUE", help="sizing constants of the nets, e.g. c_width=4 width_max=1024")
@@ -61,7 +62,7 @@ def add_parser(sub):
     return p
 
 
-def learner_specs(names, width_multipliers=None, precision="auto", sizing=None):
+def learner_specs(names, width_multipliers=None, precision="auto", sizing=None, image_shape=None):
     """LearnerSpecs for the command line's learners; the net at the rule's width comes first, then each
     extra width multiplier."""
     from ..curves import LearnerSpec
@@ -75,6 +76,8 @@ def learner_specs(names, width_multipliers=None, precision="auto", sizing=None):
             mults = [1.0] + [float(m) for m in (width_multipliers or []) if float(m) != 1.0]
             for m in dict.fromkeys(mults):
                 specs.append(LearnerSpec(name, params={"width_multiplier": m, **extra}))
+        elif name in CONV:
+            specs.append(LearnerSpec(name, params={} if image_shape is None else {"image_shape": tuple(image_shape)}))
         else:
             specs.append(LearnerSpec(name))
     return specs
@@ -124,6 +127,11 @@ def run(args) -> int:
     wrong = [l for l in args.learners if l not in allowed]
     if wrong:
         raise UsageError(f"--learners {' '.join(wrong)} do not do --task {args.task}; use {', '.join(allowed)}.")
+    if args.image_shape is not None:
+        if len(args.image_shape) not in (2, 3) or min(args.image_shape) < 1:
+            raise UsageError(f"--image-shape takes H W or C H W (positive integers); got {' '.join(map(str, args.image_shape))}.")
+        if not set(CONV) & set(args.learners):
+            raise UsageError("--image-shape is for the convolutional learners; add conv_net (or conv_classifier) to --learners.")
     if args.width_multipliers and not {"net", "net_classifier"} & set(args.learners):
         raise UsageError("--width-multipliers sizes nets; add net (or net_classifier) to --learners.")
     floor = parse_floor_option(args.floor)
@@ -178,7 +186,7 @@ def run(args) -> int:
         else:
             s = estimated_smoothness(X, y, args.seed)
     name = args.campaign or "campaign"
-    learners = learner_specs(args.learners, args.width_multipliers, args.precision, sizing)
+    learners = learner_specs(args.learners, args.width_multipliers, args.precision, sizing, args.image_shape)
     campaign = Campaign(X=X, y=y, sizes=args.sizes, repeats=args.repeats, learners=learners,
                         dimension=d, smoothness=s, seed=args.seed, name=name, store=store, task=args.task,
                         dimension_source="given" if args.dimension is not None else "geometry read-out (rounded consensus)",
@@ -324,41 +332,18 @@ def check_classes(table, smallest):
 
 
 def classification_read_out(result, seed) -> dict:
-    """Exponents with intervals and verdicts of every learner on each classification metric that has values
-    (floors of :data:`CLASSIFY_METRICS`), printed; returns ``{metric: [ExponentFit, ...]}`` for the report."""
-    from ..curves.fitting import fit_exponent
+    """The core classification read-out (:func:`manireg.curves.readout.classification_read_out`), printed;
+    returns ``{metric: [ExponentFit, ...]}`` for the report."""
+    from ..curves.readout import classification_read_out as core
     from ._common import captured_warnings
 
-    rows = result.rows
-    ok = rows[rows["status"] == "ok"] if "status" in rows else rows
-    out = {}
     say()
     with captured_warnings():
-        for metric, floor in CLASSIFY_METRICS.items():
-            if metric not in ok or not ok[metric].notna().any():
-                continue
-            out[metric] = []
-            for learner in result.learners:
-                try:
-                    fit = fit_exponent(rows, learner, metric=metric, floor=floor, seed=seed)
-                except ValueError as exc:
-                    say(f"{learner} {metric}: no fit ({exc})")
-                    continue
-                say(f"[{metric}] {fit}")
-                out[metric].append(fit)
-    return out
-
-
-def classification_reference(smoothness, dimension) -> dict:
-    """The reference exponent of the excess logistic risk at the campaign's s and d, with its source,
-    conditions and scope, for the report."""
-    from ..theory.classification import (LOGISTIC_RATE_CONDITIONS, LOGISTIC_RATE_SOURCE,
-                                         logistic_excess_risk_exponent)
-
-    return {"metric": "excess_logistic_risk", "formula": "s / (2s + 2 max(s, d))", "smoothness": float(smoothness),
-            "dimension": float(dimension),
-            "predicted_exponent": float(logistic_excess_risk_exponent(float(smoothness), max(float(dimension), 1.0))),
-            "source": LOGISTIC_RATE_SOURCE, "conditions": LOGISTIC_RATE_CONDITIONS,
-            "scope": ("an upper bound, up to log factors, stated for convolutional residual networks: it is not a "
-                      "prediction for the fully connected net, the k-nearest-neighbour classifier or the logistic "
-                      "baseline, and a measured exponent above it does not contradict it")}
+        ro = core(result.rows, smoothness=result.smoothness, dimension=result.dimension, learners=result.learners,
+                  seed=seed)
+    for metric, fits in ro.fits.items():
+        for learner, why in ro.failures[metric].items():
+            say(f"{learner} {metric}: no fit ({why})")
+        for fit in fits:
+            say(f"[{metric}] {fit}")
+    return ro.fits

@@ -17,6 +17,8 @@ References
 
 from __future__ import annotations
 
+import dataclasses
+
 import json
 import os
 import tempfile
@@ -236,10 +238,10 @@ class Campaign:
             raise ValueError(f"Campaign: spec must be a CampaignSpec; got {type(spec).__name__}.")
         self.spec = spec
         self.data = prepare(spec)  # before the store: bad settings never leave a file behind
+        self._cells = expand(self.data)  # so are the learners' settings on this data (an image shape, ...)
         if store is None:
             store = os.path.join(tempfile.mkdtemp(prefix="manireg-campaign-"), "campaign.sqlite")
         self.store = store if isinstance(store, ResultStore) else ResultStore(store)
-        self._cells = None
 
     @classmethod
     def from_regression_sample(cls, sample, *, store=None, **kwargs):
@@ -294,6 +296,22 @@ class Campaign:
                                       stop=stop, on_unit=on_unit)
             summary = dict(summary, evidence=dict(extra))
         return self.result(summary)
+
+    def add_learners(self, learners) -> list:
+        """Add learners (same data, splits, seed and store) and return the ones added.
+
+        A learner equal to one the campaign has (same kind and resolved parameters) is skipped
+        (:func:`manireg.curves.capacity.new_learners`), so no cell is trained twice; existing learners and their
+        cell keys are unchanged, and :meth:`run` then trains only the new learners' cells.
+        """
+        from manireg.curves.capacity import new_learners
+
+        added = new_learners(self.data, learners)
+        if added:
+            self.data.learners = list(self.data.learners) + added
+            self.spec = dataclasses.replace(self.spec, learners=list(self.data.learners))
+            self._cells = None  # the cell list is rebuilt on next use; old cells keep their keys
+        return added
 
     def evidence_cells(self, settings=None) -> list:
         """The evidence cells that the rows stored so far call for (:func:`manireg.curves.evidence.evidence_cells`):

@@ -13,7 +13,6 @@ learner (nothing is added), whatever its name.
 
 from __future__ import annotations
 
-import dataclasses
 import json
 import math
 import numbers
@@ -100,12 +99,11 @@ def _signature(spec, data) -> str:
     return canonical_json({"kind": spec.kind, "params": make_learner(spec).resolve(data)})
 
 
-def add_learners(campaign, learners) -> list:
-    """Add learners to ``campaign`` in place (same data, splits, seed and store) and return the ones added.
+def new_learners(data, learners) -> list:
+    """The learners of ``learners`` that a campaign on ``data`` does not have yet (checked, as LearnerSpec).
 
     A learner equal to one the campaign has (same kind and resolved parameters) is skipped, so no cell is
-    trained twice; the existing learners and their cell keys are unchanged. ``campaign.run()`` then trains the
-    new learners' cells only.
+    trained twice.
 
     Raises
     ------
@@ -113,13 +111,7 @@ def add_learners(campaign, learners) -> list:
         For a learner of another task than the campaign's, or a new learner whose name an existing learner
         with other settings already has.
     """
-    from manireg.curves.campaign import Campaign
-
     owner = "add_learners"
-    if not isinstance(campaign, Campaign):
-        raise ValueError(f"{owner}: campaign must be a Campaign (rows loaded from a store cannot train); got "
-                         f"{type(campaign).__name__}. Rebuild the Campaign with the same settings and store.")
-    data = campaign.data
     current = list(data.learners)
     known = {_signature(l, data) for l in current}
     names = {l.name for l in current}
@@ -138,11 +130,18 @@ def add_learners(campaign, learners) -> list:
         known.add(sig)
         names.add(spec.name)
         added.append(spec)
-    if added:
-        data.learners = current + added
-        campaign.spec = dataclasses.replace(campaign.spec, learners=list(data.learners))
-        campaign._cells = None  # the cell list is rebuilt on next use; old cells keep their keys
     return added
+
+
+def add_learners(campaign, learners) -> list:
+    """Add learners to ``campaign`` in place (:meth:`manireg.curves.campaign.Campaign.add_learners`) and return
+    the ones added; a stored result (rows only) is refused with the fix."""
+    from manireg.curves.campaign import Campaign
+
+    if not isinstance(campaign, Campaign):
+        raise ValueError(f"add_learners: campaign must be a Campaign (rows loaded from a store cannot train); got "
+                         f"{type(campaign).__name__}. Rebuild the Campaign with the same settings and store.")
+    return campaign.add_learners(learners)
 
 
 def _learner_settings(config_json):

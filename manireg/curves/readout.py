@@ -16,7 +16,14 @@ from dataclasses import dataclass, field
 from manireg._results import ResultMixin
 from manireg.curves.floors import DEFAULT_FLOOR, choose_floor
 
-__all__ = ["ReadOut", "read_out", "learner_kind_of"]
+__all__ = ["ReadOut", "read_out", "learner_kind_of", "CLASSIFY_METRICS", "ClassificationReadOut",
+           "classification_read_out", "classification_reference"]
+
+#: Metrics a classification campaign fits (those with values in the rows), with the floor of each fit: the
+#: error rate and the cross-entropy level off at the Bayes risk (unknown on real data: fitted); the excess risks
+#: and the calibration error of a consistent classifier go to zero (no floor).
+CLASSIFY_METRICS = {"test_error_rate": "fit", "excess_error_rate": None, "excess_logistic_risk": None,
+                    "test_cross_entropy": "fit", "calibration_error": None}
 
 
 def learner_kind_of(name, learner_kinds=None) -> str:
@@ -204,3 +211,72 @@ def read_out(rows, *, dimension, dimension_interval=None, smoothness, ambient_di
         tuple(float(v) for v in dimension_interval), smoothness=smoothness, ambient_dim=ambient_dim,
         working_dimension=d_work, learner_kinds=kinds, warnings=caught_msgs, diagnoses=diagnoses, evidence=evidence,
     )
+
+
+@dataclass
+class ClassificationReadOut(ResultMixin):
+    """The read-out of a classification campaign: exponents of every learner on every metric with values.
+
+    Attributes
+    ----------
+    fits : dict
+        Metric -> list of :class:`manireg.curves.fitting.ExponentFit` (floors of :data:`CLASSIFY_METRICS`).
+    failures : dict
+        Metric -> {learner: why there is no fit}.
+    reference : dict
+        The reference exponent of the excess logistic risk (:func:`classification_reference`).
+    """
+
+    fits: dict
+    failures: dict
+    reference: dict
+
+    def to_frame(self):
+        import pandas as pd
+
+        frames = []
+        for metric, fits in self.fits.items():
+            for fit in fits:
+                f = fit.to_frame()
+                if "metric" not in f:
+                    f.insert(0, "metric", metric)
+                frames.append(f)
+        return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
+
+
+def classification_reference(smoothness, dimension) -> dict:
+    """The reference exponent of the excess logistic risk at ``smoothness`` and ``dimension``, with its source,
+    conditions and scope (:func:`manireg.theory.classification.logistic_excess_risk_exponent`)."""
+    from manireg.theory.classification import (LOGISTIC_RATE_CONDITIONS, LOGISTIC_RATE_SOURCE,
+                                               logistic_excess_risk_exponent)
+
+    return {"metric": "excess_logistic_risk", "formula": "s / (2s + 2 max(s, d))", "smoothness": float(smoothness),
+            "dimension": float(dimension),
+            "predicted_exponent": float(logistic_excess_risk_exponent(float(smoothness), max(float(dimension), 1.0))),
+            "source": LOGISTIC_RATE_SOURCE, "conditions": LOGISTIC_RATE_CONDITIONS,
+            "scope": ("an upper bound, up to log factors, stated for convolutional residual networks: it is not a "
+                      "prediction for the fully connected net, the k-nearest-neighbour classifier or the logistic "
+                      "baseline, and a measured exponent above it does not contradict it")}
+
+
+def classification_read_out(rows, *, smoothness, dimension, learners=None, seed=0, level=0.95
+                            ) -> ClassificationReadOut:
+    """Exponents with intervals and verdicts of every learner on each classification metric that has values,
+    with the floors of :data:`CLASSIFY_METRICS`, and the logistic reference exponent. The CLI, the report and
+    the curve panel only format it."""
+    from manireg.curves.fitting import fit_exponent
+
+    ok = rows[rows["status"] == "ok"] if "status" in rows else rows
+    if learners is None:
+        learners = sorted(ok["learner"].astype(str).unique()) if len(ok) else []
+    fits, failures = {}, {}
+    for metric, floor in CLASSIFY_METRICS.items():
+        if metric not in ok or not ok[metric].notna().any():
+            continue
+        fits[metric], failures[metric] = [], {}
+        for learner in learners:
+            try:
+                fits[metric].append(fit_exponent(rows, learner, metric=metric, floor=floor, seed=seed, level=level))
+            except ValueError as exc:
+                failures[metric][learner] = str(exc)
+    return ClassificationReadOut(fits, failures, classification_reference(smoothness, dimension))

@@ -223,7 +223,10 @@ def read_label_column(path, column):
         cols = [str(c) for c in frame.columns]
         frame.columns = cols
         if str(column) not in cols:
-            raise DataValidationError(f"target column '{column}' is not in '{p}'. Columns are: {', '.join(cols[:12])}.")
+            from manireg.data.io import _preview, _suggest
+
+            raise DataValidationError(f"target column '{column}' is not in '{p}'.{_suggest(column, cols)} "
+                                      f"Columns are: {_preview(cols)}. Pass the label column's name with --target.")
         vals = frame[str(column)].to_numpy(dtype=object)
         if ext == ".csv":  # CSV cells arrive as text: numbers back to numbers where every cell is one
             try:

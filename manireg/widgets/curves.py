@@ -148,8 +148,8 @@ def _task_of(source, rows) -> str:
 
 
 def _classify_floors() -> dict:
-    """Metric -> floor of a classification fit: the command line's table (one place)."""
-    from manireg.cli.curves import CLASSIFY_METRICS
+    """Metric -> floor of a classification fit (the core table, one place)."""
+    from manireg.curves.readout import CLASSIFY_METRICS
 
     return {m: ("none" if f is None else f) for m, f in CLASSIFY_METRICS.items()}
 
