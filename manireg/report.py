@@ -345,7 +345,6 @@ def classification_table_frame(metric_fits: dict):
 def _classification_parts(sec, summary, rows, metric_fits, reference):
     """The classification part of the learning-curves section: per metric the verdicts, one table, one figure;
     the reference exponent of the excess logistic risk with its source, conditions and scope."""
-    import pandas as pd
 
     from . import plots
 
@@ -380,6 +379,18 @@ def _classification_parts(sec, summary, rows, metric_fits, reference):
                             "marks), fitted curve (solid), fitted floor (dash-dot), optimisation-limited cells (x)."))
 
 
+def _capacity_parts(sec, summary, capacity):
+    """The capacity read-out of nets that ran several widths (a table per depth group, or why there is none)."""
+    for label, cap in capacity or []:
+        if isinstance(cap, str):
+            sec.paragraphs.append(f"Capacity read-out ({label}): {cap}")
+            continue
+        sec.tables.append((f"Capacity read-out ({label}): the best width multiplier at each n and where the rule's "
+                           "width sits, from paired differences over the repeats both widths ran", cap.to_frame()))
+    if capacity:
+        summary["capacity"] = {label: (cap if isinstance(cap, str) else cap.to_dict()) for label, cap in capacity}
+
+
 def _evidence_parts(sec, summary, diagnoses, evidence):
     """The diagnoses and the evidence cells of the learning-curves section (tables and summary entries)."""
     import pandas as pd
@@ -410,7 +421,7 @@ def _evidence_parts(sec, summary, diagnoses, evidence):
 def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campaign=None, fits=None, plan=None,
                    plan_note: str | None = None, extrapolation=None, settings: dict | None = None,
                    true_dimension=None, theory=None, classification=None, classification_reference=None,
-                   diagnoses=None, evidence=None):
+                   diagnoses=None, evidence=None, capacity=None):
     """Turn finished result objects into report sections and the JSON summary of a campaign.
 
     Parameters
@@ -436,6 +447,9 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
     evidence : dict, optional
         Learner -> :class:`manireg.curves.evidence.LearnerEvidence`: the budget and capacity checks, shown as a
         table and kept as ``summary["evidence"]``.
+    capacity : list, optional
+        ``[(label, CapacityReadout or str)]`` of ``ReadOut.capacity``: one table per group of nets that ran
+        several widths, kept as ``summary["capacity"]``.
 
     Returns
     -------
@@ -546,6 +560,7 @@ def compose_report(*, title: str, data: dict, geometry=None, sizing=None, campai
                 summary["theory"] = {name: c.to_dict() for name, c in theory.items()}
             summary["optimisation_limited"] = limited
             _evidence_parts(sec, summary, diagnoses, evidence)
+            _capacity_parts(sec, summary, capacity)
             sec.figures.append(("learning_curves", plots.plot_learning_curves(rows, fits),
                                 "Test error against n: every repeat (small marks), size means (large marks), fitted curve (solid), "
                                 "predicted exponent (long dashes), ambient exponent (dots), fitted floor (dash-dot), "

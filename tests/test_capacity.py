@@ -58,3 +58,36 @@ def test_depth_groups_without_cell_configurations():
     ((label, ro),) = capacity_by_depth(rows)
     assert [r["n"] for r in ro.table] == [50.0, 100.0]
     assert depth_groups(rows[rows["learner"] == "knn"]) == []
+
+
+def test_read_out_carries_the_capacity_read_out_only_for_a_width_sweep():
+    # the one core read-out the CLI, the report and the panel format: a capacity read-out for nets that ran
+    # two widths, none for a single width
+    import numpy as np
+
+    from manireg.curves.readout import read_out
+
+    rng = np.random.default_rng(0)
+    rows = pd.DataFrame([{"learner": l, "n": n, "repeat": r, "status": "ok",
+                          "test_mse": (2.0 if l == "net" else 1.0) * n ** -0.6 * np.exp(rng.normal(0, 0.05))}
+                         for l in ("net", "net-w2", "knn") for n in (50, 100, 200, 400, 800, 1600) for r in range(5)])
+    ro = read_out(rows, dimension=2.0, smoothness=1.0, floor="none")
+    ((label, cap),) = ro.capacity
+    assert label == "net, net-w2" and all(r["best_multiplier"] == 2.0 for r in cap.table)
+    assert read_out(rows[rows["learner"] != "net-w2"], dimension=2.0, smoothness=1.0, floor="none").capacity == []
+
+
+def test_jackknife_se_without_two_finite_replicates_is_nan_and_silent():
+    # the spread of a column with fewer than two finite leave-one-out values is undefined: NaN, no warning
+    import warnings
+
+    import numpy as np
+
+    from manireg.curves.fitting import jackknife_se
+
+    th = np.array([[1.0, np.nan, np.nan], [2.0, np.nan, 3.0], [3.0, np.nan, np.nan]])
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        se = jackknife_se(th)
+    # column 0: sqrt((R-1)/R * sum of squared deviations) = sqrt(2/3 * 2) (closed form)
+    assert se[0] == pytest.approx(np.sqrt(4 / 3)) and np.isnan(se[1]) and np.isnan(se[2])

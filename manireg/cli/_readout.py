@@ -27,6 +27,11 @@ def read_out(result, *, floor, target_error=None, smoothness_range=None, allow_u
         say("  against theory: " + str(ro.theory[f.learner]))
         for line in evidence_lines(ro, f.learner):
             say("  " + line)
+    for label, cap in ro.capacity:
+        say()
+        say(f"capacity read-out ({label}; paired over shared repeats):")
+        for line in str(cap).splitlines():
+            say("  " + line)
     if ro.plan is not None:
         say()
         say("plan: " + str(ro.plan))
@@ -38,7 +43,8 @@ def read_out(result, *, floor, target_error=None, smoothness_range=None, allow_u
                           result.ambient_dim)
     checks = [c for c in ro.extrapolation.values() if not isinstance(c, str)]
     return {"fits": ro.fits, "theory": ro.theory, "extrapolation": checks, "plan": ro.plan, "plan_note": ro.plan_note,
-            "sizing": sizing, "diagnoses": ro.diagnoses, "evidence": ro.evidence}
+            "sizing": sizing, "diagnoses": ro.diagnoses, "evidence": ro.evidence,
+            "capacity": ro.capacity}
 
 
 def evidence_lines(ro, learner) -> list:

@@ -422,9 +422,12 @@ def jackknife_se(theta_loo):
     """
     th = np.asarray(theta_loo, dtype=float)
     R = np.sum(np.isfinite(th), axis=0)
-    with np.errstate(invalid="ignore"):
-        dev = th - np.nanmean(th, axis=0)
-        return np.sqrt((R - 1) / R * np.nansum(dev**2, axis=0))
+    # a column with fewer than two finite replicates has no spread: NaN, said by the caller, not a warning
+    ok = R >= 2
+    safe = np.where(np.isfinite(th) & ok, th, 0.0)
+    mean = np.sum(safe, axis=0) / np.maximum(R, 1)
+    dev = np.where(np.isfinite(th), th - mean, 0.0)
+    return np.where(ok, np.sqrt((R - 1) / np.maximum(R, 1) * np.sum(dev**2, axis=0)), np.nan)
 
 
 def _t_interval(est, se, level, dof):

@@ -68,7 +68,7 @@ from manireg._validation import check_float, check_int
 from manireg.curves.campaign import Campaign, CampaignResult
 from manireg.curves.learners import Learner, LearnerSpec, register_learner
 from manireg.curves.sweep import MIN_SIZE, CampaignData, _seed_int, check_sizes, expand
-from manireg.data.bandits import LoggedBandit, check_logged, logged_bandit, softmax
+from manireg.data.bandits import LoggedBandit, check_logged, logged_bandit
 
 __all__ = [
     "METHODS", "DEFAULT_FOLDS", "DEFAULT_CLIP", "POLICY_COLUMNS", "HIST_BINS", "MIN_ROWS_PER_ACTION",

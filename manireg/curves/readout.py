@@ -64,6 +64,10 @@ class ReadOut(ResultMixin):
     evidence : dict
         Learner -> :class:`manireg.curves.evidence.LearnerEvidence` (net learners): budget and capacity
         checks, sizes where the width rule hit ``width_max``, training MSE over the noise variance.
+    capacity : list
+        ``[(label, CapacityReadout or str)]`` for each group of nets that differ only in width
+        (:func:`manireg.curves.capacity.capacity_by_depth`: paired over shared repeats); empty when no group
+        has two widths.
     """
 
     fits: object
@@ -83,6 +87,7 @@ class ReadOut(ResultMixin):
     warnings: list = field(default_factory=list)
     diagnoses: dict = field(default_factory=dict)
     evidence: dict = field(default_factory=dict)
+    capacity: list = field(default_factory=list)
 
     def to_frame(self):
         """One row per learner: the fit's row plus the theory verdict and predicted interval."""
@@ -210,7 +215,16 @@ def read_out(rows, *, dimension, dimension_interval=None, smoothness, ambient_di
         metric=metric, dimension=float(dimension), dimension_interval=None if dimension_interval is None else
         tuple(float(v) for v in dimension_interval), smoothness=smoothness, ambient_dim=ambient_dim,
         working_dimension=d_work, learner_kinds=kinds, warnings=caught_msgs, diagnoses=diagnoses, evidence=evidence,
+        capacity=_capacity(rows, metric, level),
     )
+
+
+def _capacity(rows, metric, level) -> list:
+    """The capacity read-out of every group of nets that ran two or more widths."""
+    from manireg.curves.capacity import capacity_by_depth, depth_groups
+
+    swept = {label for label, learners in depth_groups(rows) if len(learners) > 1}
+    return [(label, c) for label, c in capacity_by_depth(rows, metric=metric, level=level) if label in swept]
 
 
 @dataclass
