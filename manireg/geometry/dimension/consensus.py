@@ -52,6 +52,7 @@ class DimensionReport(ResultMixin):
     noise_scale: float = math.nan
     curvature_scale: float = math.nan
     calibration: CalibrationTable | None = field(default=None, repr=False)
+    consensus_se: float = math.nan
 
     @property
     def window(self) -> tuple:
@@ -221,7 +222,7 @@ def estimate_dimension(
     profile, table = None, None
     plateau = (math.nan, math.nan)
     plateau_values, disagreeing, used = {}, {}, []
-    lower = upper = raw_consensus = noise = curv = math.nan
+    lower = upper = raw_consensus = noise = curv = se = math.nan
     kind = "none"
     if prof_est:
         prof, values, labels = _profile_from_graph(graph, ks, prof_est, n_boot, level, seed, n_blocks=n_blocks)
@@ -314,4 +315,4 @@ def estimate_dimension(
         warn(f"{owner}: {w}")
     return DimensionReport(estimates, float(consensus), rule, plateau, plateau_values, int(X.shape[0]), int(m),
                            int(n_dup), int(X.shape[1]), warn_list, profile, float(lower), float(upper), kind,
-                           float(raw_consensus), used, disagreeing, float(noise), float(curv), table)
+                           float(raw_consensus), used, disagreeing, float(noise), float(curv), table, float(se))
