@@ -54,7 +54,7 @@ def benchmark(runs: int = 3, n: int = 1000):
         print(f"| {name} | {d} | " + " | ".join(cells) + f" | {rel} |")
 
 
-def coverage(seeds: int = 40, n: int = 1000):
+def coverage(seeds: int = 20, n: int = 1000, which=None):
     from manireg.data.manifolds import graph_manifold, sphere, swiss_roll, torus
     from manireg.geometry.dimension import MLEDimension
 
@@ -67,6 +67,8 @@ def coverage(seeds: int = 40, n: int = 1000):
         ("graph d=3 D=30", lambda s: graph_manifold(n, 3, 30, frequency=0.5, seed=s), "ball"),
         ("graph d=5 D=40", lambda s: graph_manifold(n, 5, 40, frequency=0.5, seed=s), "ball"),
     ]
+    if which:
+        cases = [c for c in cases if c[0] in which]
     half = 1.96 * np.sqrt(0.95 * 0.05 / seeds)
     print(f"n = {n}, {seeds} seeds, nominal 95 % (binomial sd {half / 1.96:.3f}, so 0.95 +- {half:.3f} is the "
           f"range for an honest interval); load {os.getloadavg()}")
@@ -136,7 +138,8 @@ if __name__ == "__main__":
     p = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("part", choices=("benchmark", "coverage", "noise", "figure"))
     p.add_argument("--runs", type=int, default=3)
-    p.add_argument("--seeds", type=int, default=40)
+    p.add_argument("--seeds", type=int, default=20)
+    p.add_argument("--sets", nargs="*", help="coverage: only these sets (labels as printed)")
     a = p.parse_args()
-    {"benchmark": lambda: benchmark(a.runs), "coverage": lambda: coverage(a.seeds), "noise": noise,
+    {"benchmark": lambda: benchmark(a.runs), "coverage": lambda: coverage(a.seeds, which=a.sets), "noise": noise,
      "figure": figure}[a.part]()
