@@ -136,3 +136,22 @@ def test_a_large_estimate_never_stops_the_geometry_read_out():
         geo = describe_geometry(X, embed=False, n_boot=0, seed=0)
     assert geo.dimension_used >= 10
     assert "charts hold at least" in geo.dimension_source
+
+
+def test_calibration_figure_draws_the_table():
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from manireg.plots.dimension import plot_dimension_calibration
+
+    table = calibration_table(1000, (4, 8, 16, 32, 64), seed=0)
+    fig = plot_dimension_calibration(table, raw=13.6)
+    ax = fig.axes[0]
+    # the identity line, one curve per scale (4..64), and the two marker lines of the raw value
+    assert len(ax.lines) == 1 + 5 + 2
+    np.testing.assert_allclose(ax.lines[1].get_xdata(), table.d_grid)
+    with pytest.raises(ValueError, match="needs a CalibrationTable or a DimensionReport"):
+        plot_dimension_calibration(object())
+    plt.close("all")
