@@ -131,7 +131,8 @@ def estimate_dimension(
        others are named in ``disagreeing`` and in a warning, not averaged in.
 
     Interval (``n_boot`` > 0): delete-one-block jackknife of the whole rule (window and estimators held)
-    over ``n_blocks`` k-means cells of the points, with a Student t quantile
+    over k-means cells of the points (m // (3 k) of them for the largest scale k read, between 4 and
+    ``n_blocks``), with a Student t quantile
     (:func:`~manireg.geometry.dimension.profile.neighbourhood_blocks`); ``consensus_lower``,
     ``consensus_upper``. The correlation dimension is reported but not in the consensus.
 
@@ -271,8 +272,9 @@ def estimate_dimension(
 
         everything = np.ones(graph.n_points, dtype=bool)
         if labels is not None:
-            consensus, lower, upper, se, q = _jackknife(stat, labels, level)
-            kind = f"jackknife over {int(labels.max()) + 1} blocks of neighbourhoods, t quantile"
+            blocks = labels.for_scale(max(need_ks))
+            consensus, lower, upper, se, q = _jackknife(stat, blocks, level)
+            kind = f"jackknife over {int(blocks.max()) + 1} blocks of neighbourhoods, t quantile"
             if table is not None and np.isfinite(se):
                 # the calibration's own uncertainty: the same rule calibrated on the second reference family
                 # (with an edge / without one); the interval spans both calibrated values

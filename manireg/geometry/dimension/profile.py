@@ -160,6 +160,25 @@ def neighbourhood_blocks(points: np.ndarray, n_blocks: int = DEFAULT_BLOCKS, see
     return labels
 
 
+#: A block holds at least this many neighbourhoods of the largest scale it serves (fewer blocks at large k).
+POINTS_PER_BLOCK = 3
+
+
+class _Blocks:
+    """Block labels for a given largest neighbour count k: B = clip(m // (POINTS_PER_BLOCK * k), 4, n_blocks)
+    k-means cells, so that a block is wider than the neighbourhoods it holds (cached per B)."""
+
+    def __init__(self, points, n_blocks, seed):
+        self.points, self.n_blocks, self.seed, self._by_b = points, n_blocks, seed, {}
+
+    def for_scale(self, k: int) -> np.ndarray:
+        m = self.points.shape[0]
+        B = int(np.clip(m // (POINTS_PER_BLOCK * max(int(k), 1)), 4, self.n_blocks))
+        if B not in self._by_b:
+            self._by_b[B] = neighbourhood_blocks(self.points, B, self.seed)
+        return self._by_b[B]
+
+
 def _jackknife(stat, labels: np.ndarray, level: float):
     """Delete-one-block jackknife: (estimate on all points, lower, upper, se, t quantile), t_(B-1) interval.
 
@@ -222,11 +241,11 @@ def find_window(scales, values, tol: float = WINDOW_TOLERANCE):
 def _profile_from_graph(graph, ks, estimators, n_boot, level, seed, *, lpca_rule="variance", variance=0.95,
                         n_blocks=DEFAULT_BLOCKS):
     values = _point_values(graph, ks, estimators, lpca_rule, variance)
-    labels = neighbourhood_blocks(graph.points, n_blocks, seed) if n_boot else None
+    labels = _Blocks(graph.points, n_blocks, seed) if n_boot else None
     rows = {key: [] for key in ("estimator", "scale", "radius", "dimension", "lower", "upper", "n_used")}
     for (name, k), arr in values.items():
         if labels is not None:
-            d, lo, hi, _, _ = _jackknife(lambda mask: _value(name, k, arr[mask]), labels, level)
+            d, lo, hi, _, _ = _jackknife(lambda mask: _value(name, k, arr[mask]), labels.for_scale(k), level)
         else:
             d, lo, hi = _value(name, k, arr), math.nan, math.nan
         for key, v in zip(rows, (name, k, float(np.median(graph.distances[:, k - 1])), d, lo, hi, arr.size)):
@@ -261,8 +280,9 @@ def dimension_profile(
       profile's guide: it uses no distance below the (k/2)-th neighbour, so noise at the scale of the first
       neighbours does not reach its large-scale rows, and it has a value at every scale of the window.
 
-    Intervals (``n_boot`` > 0): delete-one-block jackknife over ``n_blocks`` k-means cells of the points
-    with a Student t_(B-1) quantile (:func:`neighbourhood_blocks`): blocks of neighbourhoods do not overlap
+    Intervals (``n_boot`` > 0): delete-one-block jackknife over k-means cells of the points with a Student
+    t_(B-1) quantile (:func:`neighbourhood_blocks`); at scale k there are B = m // (3 k) cells, between 4 and
+    ``n_blocks``, so that a cell holds several neighbourhoods: blocks of neighbourhoods then do not overlap
     (except at their borders), so the interval carries the correlation of overlapping neighbourhoods that a
     bootstrap over points leaves out. ``n_boot`` is kept for compatibility: 0 switches intervals off, any
     other value asks for them. They carry no estimator bias: calibration (see :func:`estimate_dimension`)
