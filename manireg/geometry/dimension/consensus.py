@@ -130,7 +130,8 @@ def estimate_dimension(
     4. Contributions within ``disagreement`` (relative) of the guide's are averaged into the consensus; the
        others are named in ``disagreeing`` and in a warning, not averaged in.
 
-    Interval (``n_boot`` > 0): delete-one-block jackknife of the whole rule (window and estimators held)
+    Interval (``n_boot`` > 0): delete-one-block jackknife of the whole rule (the window and the read scales
+    found again on every replicate, the estimators held)
     over k-means cells of the points (m // (3 k) of them for the largest scale k read, between 4 and
     ``n_blocks``), with a Student t quantile
     (:func:`~manireg.geometry.dimension.profile.neighbourhood_blocks`); ``consensus_lower``,
@@ -238,17 +239,23 @@ def estimate_dimension(
         guide = _guide(prof_est)
         gmask = np.asarray([e == guide for e in prof["estimator"]]) & (prof["scale"] >= 3 if guide == "twonn"
                                                                       else True)
-        lo_k, hi_k, noise, curv, note = find_window(prof["scale"][gmask], calibrated[gmask])
+        g_sc = prof["scale"][gmask]
+
+        def reading(g_val_k):
+            """Window and read scales from the guide's calibrated values at the scales g_sc."""
+            lo_k, hi_k, noise, curv, note = find_window(g_sc, g_val_k)
+            in_win = (g_sc >= lo_k) & (g_sc <= hi_k)
+            low = np.nanmin(g_val_k[in_win])
+            # read where the guide is within READ_TOLERANCE of its lowest window value: noise lifts the small
+            # scales of the window, curvature of a folded set the large ones
+            ks_read = [int(k) for k, v in zip(g_sc[in_win], g_val_k[in_win]) if v <= (1 + READ_TOLERANCE) * low]
+            return lo_k, hi_k, noise, curv, note, ks_read
+
+        lo_k, hi_k, noise, curv, note, need_ks = reading(calibrated[gmask])
         if note:
             warn_list.append(note)
         plateau = (int(lo_k), int(hi_k))
         win = {e: [k for (name, k) in values if name == e and lo_k <= k <= hi_k] for e in prof_est}
-        g_sc, g_val_k = prof["scale"][gmask], calibrated[gmask]
-        in_win = (g_sc >= lo_k) & (g_sc <= hi_k)
-        low = np.nanmin(g_val_k[in_win])
-        # read where the guide is within READ_TOLERANCE of its lowest window value: noise lifts the small
-        # scales of the window, curvature of a folded set the large ones
-        need_ks = [int(k) for k, v in zip(g_sc[in_win], g_val_k[in_win]) if v <= (1 + READ_TOLERANCE) * low]
         contributions = {}
         for e in prof_est:
             if e == guide or set(need_ks) <= set(win[e]):
@@ -261,19 +268,27 @@ def estimate_dimension(
         disagreeing = {e: v for e, v in contributions.items() if e not in used}
         plateau_values = contributions
 
-        def stat(mask, calib=True, tab=None):
+        def stat(mask, calib=True, tab=None, rewindow=False):
             tab = table if tab is None else tab
+
+            def c(e, k, v):
+                return tab.calibrate(e, k, v) if calib and tab is not None and tab.has(e, k) else v
+
+            ks_read = need_ks
+            if rewindow:  # the whole rule on the subset: window and read scales found again
+                g = np.array([c(guide, k, _value(guide, k, values[(guide, int(k))][mask])) for k in g_sc])
+                ks_read = reading(g)[-1]
+                ks_read = [k for k in ks_read if all((e, k) in values for e in used)] or need_ks
             vals = []
             for e in used:
-                per_k = [_value(e, k, values[(e, k)][mask]) for k in need_ks]
-                vals.append(np.mean([tab.calibrate(e, k, v) if calib and tab is not None and tab.has(e, k) else v
-                                     for k, v in zip(need_ks, per_k)]))
+                vals.append(np.mean([c(e, k, _value(e, k, values[(e, k)][mask])) for k in ks_read]))
             return float(np.mean(vals))
 
         everything = np.ones(graph.n_points, dtype=bool)
         if labels is not None:
             blocks = labels.for_scale(max(need_ks))
-            consensus, lower, upper, se, q = _jackknife(stat, blocks, level)
+            consensus, lower, upper, se, q = _jackknife(lambda mask: stat(mask, rewindow=True), blocks, level)
+            consensus = stat(everything)
             kind = f"jackknife over {int(blocks.max()) + 1} blocks of neighbourhoods, t quantile"
             if table is not None and np.isfinite(se):
                 # the calibration's own uncertainty: the same rule calibrated on the second reference family
