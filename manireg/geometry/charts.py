@@ -280,6 +280,11 @@ class ChartAtlas(BaseEstimator):
         min_points = p["min_points"]
         seed = index_seed(p["random_state"])
         d, source = resolve_dimension(X, p["dimension"], owner=owner, n_features=X.shape[1], seed=seed)
+        if min_points <= d and source != "given":
+            # an estimated d must never stop the read-out: the balls grow to hold d + 1 points
+            warn(f"{owner}: the estimated dimension {d} is not below min_points={min_points}; using "
+                 f"min_points={d + 1} so that a chart's PCA can find {d} directions.", stacklevel=2)
+            min_points = d + 1
         if min_points <= d:
             raise ValueError(
                 f"the 'min_points' parameter of {owner} must exceed the dimension ({d}) so that a chart's PCA "

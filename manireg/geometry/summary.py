@@ -92,9 +92,15 @@ def working_dimension(consensus) -> float:
 
 
 def dimension_range(report) -> tuple:
-    """``(low, high)`` that the intrinsic dimension is read in, for the theory comparison: from the lowest to the
-    highest of the estimators' values and interval ends (the spread between estimators is part of the
-    uncertainty of d, and usually the larger part)."""
+    """``(low, high)`` that the intrinsic dimension is read in, for the theory comparison.
+
+    The consensus interval when the report has one (jackknife over blocks of neighbourhoods, widened to the
+    value calibrated on the second reference family; see
+    :func:`~manireg.geometry.dimension.estimate_dimension`); else, from the lowest to the highest of the
+    estimators' values and interval ends."""
+    lo, hi = getattr(report, "consensus_lower", np.nan), getattr(report, "consensus_upper", np.nan)
+    if lo is not None and hi is not None and np.isfinite(lo) and np.isfinite(hi):
+        return (float(min(lo, report.consensus)), float(max(hi, report.consensus)))
     vals = []
     for e in report.estimates:
         for v in (e.dimension, e.lower, e.upper):
@@ -180,8 +186,14 @@ def _describe(X, y, *, dimension, radius, embed, max_embed_points, n_boot, seed,
         d = X.shape[1] - 1 if X.shape[1] > 1 else 1
         source += f", capped at D - 1 = {d}"
 
+    # the charts' balls must hold more than d points for their PCA; a large estimate raises the floor
+    # instead of stopping the read-out
+    min_points = max(10, d + 1)
+    if min_points > 10:
+        source += f"; charts hold at least {min_points} points (d + 1)"
+
     step("charts")
-    atlas = ChartAtlas(radius=radius, dimension=d, random_state=seed).fit(X)
+    atlas = ChartAtlas(radius=radius, dimension=d, min_points=min_points, random_state=seed).fit(X)
     summary = atlas.summary()
 
     step("chart counts")

@@ -7,7 +7,7 @@ import numpy as np
 from .. import style
 from ._common import new_axes, styled
 
-__all__ = ["plot_dimension_profile", "plot_dimension_estimates"]
+__all__ = ["plot_dimension_profile", "plot_dimension_estimates", "plot_dimension_calibration"]
 
 
 def _axes(ax, figsize=(6.2, 4.0)):
@@ -61,7 +61,7 @@ def plot_dimension_profile(profile_or_report, ax=None, *, true_dimension=None, x
         if np.all(np.isfinite(lo)) and np.all(np.isfinite(hi)):
             ax.fill_between(xs, lo, hi, **style.reference_line("band", color))
     if x == "scale" and all(np.isfinite(profile.plateau)):
-        ax.axvspan(profile.plateau[0], profile.plateau[1], color="#eceef2", zorder=0, label="plateau")
+        ax.axvspan(profile.plateau[0], profile.plateau[1], color="#eceef2", zorder=0, label="window")
     if true_dimension is not None:
         ax.axhline(true_dimension, **style.reference_line("truth"), label=f"true d = {style.fmt_number(true_dimension)}")
     ax.set_xscale("log")
@@ -74,7 +74,7 @@ def plot_dimension_profile(profile_or_report, ax=None, *, true_dimension=None, x
         ax.xaxis.set_minor_formatter(NullFormatter())
     ax.set_xlabel("neighbour count k" if x == "scale" else "median neighbour distance")
     ax.set_ylabel("estimated dimension")
-    ax.set_title(f"Dimension profile ({profile.level:.0%} bootstrap bands, n = {profile.n_samples})")
+    ax.set_title(f"Dimension profile ({profile.level:.0%} bands: {getattr(profile, 'interval_kind', 'bootstrap')}, n = {profile.n_samples})", fontsize=9)
     ax.legend(loc="best")
     return fig
 
@@ -119,4 +119,54 @@ def plot_dimension_estimates(report, ax=None, *, true_dimension=None):
     ax.set_ylabel("estimated dimension")
     ax.set_title(f"Intrinsic dimension by estimator (n = {report.n_samples})")
     ax.legend(loc="best")
+    return fig
+
+
+@styled
+def plot_dimension_calibration(table_or_report, ax=None, *, estimator="mle", scales=None, raw=None):
+    """The calibration curves: raw estimate against the true d of the reference samples, one line per scale.
+
+    Parameters
+    ----------
+    table_or_report : CalibrationTable or DimensionReport (its ``calibration``)
+    ax : matplotlib Axes, optional
+    estimator : {"mle", "twonn"}
+        Which estimator's curves to draw ("twonn": the generalised ratio at each scale).
+    scales : sequence of int, optional
+        Scales to draw (default: all of the table's, TwoNN's scale 2 included).
+    raw : float, optional
+        A raw estimate to mark with its calibrated value (dotted lines), e.g. a report's ``raw_consensus``.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    table = getattr(table_or_report, "calibration", table_or_report)
+    if table is None or not hasattr(table, "d_grid"):
+        raise ValueError(
+            "plot_dimension_calibration needs a CalibrationTable or a DimensionReport that holds one; got "
+            f"{type(table_or_report).__name__} without a calibration. Call estimate_dimension(X) (calibrate=True) "
+            "or calibration_table(n, scales) first."
+        )
+    if estimator not in table.values:
+        raise ValueError(f"estimator must be one of {tuple(table.values)}; got {estimator!r}.")
+    fig, ax = _axes(ax)
+    ks = [k for k in (table.scales if scales is None else scales) if k in table.scales]
+    if estimator == "mle":
+        ks = [k for k in ks if k >= 3]
+    grid = np.asarray(table.d_grid, dtype=float)
+    ax.plot(grid, grid, color="#999999", linewidth=1.0, linestyle="--", label="no bias")
+    cmap = __import__("matplotlib").colormaps["viridis"]
+    for i, k in enumerate(ks):
+        ref, _ = table.curve(estimator, k)
+        ax.plot(grid, ref, marker="o", markersize=3, color=cmap(i / max(len(ks) - 1, 1)), label=f"k = {k}")
+    if raw is not None and ks:
+        k = ks[len(ks) // 2]
+        d = table.calibrate(estimator, k, raw)
+        ax.axhline(raw, color="#c0392b", linestyle=":", linewidth=1.0)
+        ax.axvline(d, color="#c0392b", linestyle=":", linewidth=1.0, label=f"raw {raw:.2f} -> {d:.2f} (k = {k})")
+    ax.set_xlabel("true dimension d of the reference sample")
+    ax.set_ylabel(f"raw {estimator} estimate")
+    ax.set_title(f"Calibration ({table.reference}, n = {table.n_reference})")
+    ax.legend(fontsize=8)
     return fig

@@ -14,8 +14,12 @@ One concern per module:
   ``fit``, neighbour query, summary) and the bootstrap helpers;
 * ``mle``, ``twonn``, ``local_pca``, ``correlation``: one algorithm each, as a plain function and an
   estimator;
-* ``profile``: :func:`dimension_profile` (estimates against neighbourhood scale);
-* ``consensus``: :func:`estimate_dimension` (all estimators, the profile and a consensus).
+* ``gride``: the generalised ratio T_k / T_(k/2) (TwoNN at k = 2), the profile's guide;
+* ``profile``: :func:`dimension_profile` (estimates against neighbourhood scale), :func:`find_window`
+  (between the noise and the curvature scales), blocks of neighbourhoods and the jackknife;
+* ``calibration``: :func:`calibration_table` (raw estimates on reference samples of known d, cached);
+* ``consensus``: :func:`estimate_dimension` (all estimators, the calibrated profile, a consensus and its
+  interval).
 
 Conventions
 -----------
@@ -24,11 +28,13 @@ Conventions
 """
 
 from ._base import DimensionEstimate, _DimensionEstimator, _LocalDimensionEstimator
+from .calibration import CalibrationTable, calibration_table
 from .consensus import DimensionReport, estimate_dimension
+from .gride import gride_dimension
 from .correlation import CorrelationDimension, correlation_dimension
 from .local_pca import LocalPCADimension, local_pca_dimension, local_pca_profile
 from .mle import MLEDimension, mle_dimension
-from .profile import DEFAULT_PROFILE_SCALES, DimensionProfile, dimension_profile
+from .profile import DEFAULT_PROFILE_SCALES, DimensionProfile, dimension_profile, find_window
 from .twonn import TwoNNDimension, twonn_dimension, twonn_from_ratios
 
 __all__ = [
@@ -46,4 +52,8 @@ __all__ = [
     "dimension_profile",
     "estimate_dimension",
     "DEFAULT_PROFILE_SCALES",
+    "gride_dimension",
+    "find_window",
+    "calibration_table",
+    "CalibrationTable",
 ]
