@@ -197,9 +197,10 @@ def test_bad_inputs():
 
 
 def test_hand_written_gradients_and_fused_adam_match_autograd_and_torch_adam():
-    # The trainer's backward pass is written out by hand and its update is torch._fused_adam_; check both
-    # against autograd and torch.optim.Adam (reference implementation) on a random stacked net.
-    from manireg.nets.training import _loss_grads
+    # The trainer's backward pass is written out by hand and its update is torch.optim's functional fused
+    # Adam on per-replica slabs; check both against autograd and torch.optim.Adam (reference
+    # implementation, its default single-tensor path) on a random stacked net.
+    from manireg.nets.training import _loss_grads, _replica_slabs, adam_update
 
     g = torch.Generator().manual_seed(0)
     R, B, sizes = 3, 17, [D, 12, 12, 1]
@@ -220,22 +221,38 @@ def test_hand_written_gradients_and_fused_adam_match_autograd_and_torch_adam():
         if not isinstance(weights, float):
             for a, b in zip(mine, ref):
                 torch.testing.assert_close(a, b, rtol=1e-5, atol=1e-6)
-    # one fused Adam step (shared step counter) equals torch.optim.Adam's step
+    # three fused Adam steps on the per-replica slabs (as the trainer calls it) equal torch.optim.Adam's
     p_fused = [p.detach().clone() for p in params]
     m1 = [torch.zeros_like(p) for p in p_fused]
     m2 = [torch.zeros_like(p) for p in p_fused]
+    p_sl, g_sl, m1_sl, m2_sl = _replica_slabs(p_fused, list(ref), m1, m2)
+    steps = [torch.zeros(()) for _ in p_sl]
     p_ref = [p.detach().clone().requires_grad_(True) for p in params]
-    opt = torch.optim.Adam(p_ref, lr=3e-3)
-    step = torch.zeros(())
+    opt = torch.optim.Adam(p_ref, lr=3e-3, foreach=False)
     for t in range(3):
-        step.fill_(t + 1)
-        torch._fused_adam_(p_fused, list(ref), m1, m2, [], [step] * len(p_fused), lr=3e-3, beta1=0.9,
-                           beta2=0.999, weight_decay=0.0, eps=1e-8, amsgrad=False, maximize=False)
+        adam_update(p_sl, g_sl, m1_sl, m2_sl, steps, lr=3e-3, beta1=0.9, beta2=0.999, eps=1e-8)
         for p, gr in zip(p_ref, ref):
             p.grad = gr.clone()
         opt.step()
     for a, b in zip(p_fused, p_ref):
         torch.testing.assert_close(a, b.detach(), rtol=1e-5, atol=1e-6)
+    assert [float(s) for s in steps] == [3.0] * len(steps)  # the step counts advance once per call
+
+
+def test_native_bfloat16_uses_public_checks(monkeypatch):
+    # bfloat16 runs in hardware only with AVX512-BF16 or AMX (Intel's instruction set reference, from
+    # memory): an AVX2 CPU is never "native", an AVX512 one only with the flag.
+    from manireg.nets import training
+
+    monkeypatch.setattr(torch.backends.cpu, "get_cpu_capability", lambda: "AVX2")
+    monkeypatch.setattr(training, "_cpu_flags", lambda: frozenset({"avx2", "avx512_bf16"}))
+    assert not training.native_bfloat16()
+    monkeypatch.setattr(torch.backends.cpu, "get_cpu_capability", lambda: "AVX512")
+    assert training.native_bfloat16()
+    monkeypatch.setattr(training, "_cpu_flags", lambda: frozenset({"avx2", "avx512f"}))
+    assert not training.native_bfloat16()
+    monkeypatch.setattr(training, "_cpu_flags", lambda: frozenset({"amx_bf16", "amx_tile"}))
+    assert training.native_bfloat16()
 
 
 def test_replica_numbers_do_not_depend_on_the_stack():

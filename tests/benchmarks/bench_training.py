@@ -121,17 +121,22 @@ def matmul_gflops(size=2048, repeats=5):
     return 2 * size**3 * repeats / (time.perf_counter() - t) / 1e9
 
 
-def step_seconds(spec, replicas, rows, low, steps=60, rounds=3):
-    """Best-of-``rounds`` seconds of one trainer step (hand-written backward + fused Adam)."""
+def step_seconds(spec, replicas, rows, low, steps=60, rounds=3, update="public"):
+    """Best-of-``rounds`` seconds of one trainer step (hand-written backward + fused Adam on per-replica
+    slabs, as the trainer does). ``update="public"`` is the trainer's ``adam_update`` (torch.optim's
+    functional Adam, fused); ``"private"`` calls the fused kernel ``torch._fused_adam_`` directly (what
+    the trainer did before; kept here only to measure the difference)."""
     import torch
 
-    from manireg.nets.training import _loss_grads, _stacked_init
+    from manireg.nets.training import _flatten, _loss_grads, _stacked_init, _unflatten, adam_update
 
     Ws, bs = _stacked_init(spec, range(replicas))
     L = len(Ws)
-    params = Ws + bs
-    m1 = [torch.zeros_like(p) for p in params]
-    m2 = [torch.zeros_like(p) for p in params]
+    flat = _flatten(Ws + bs)  # the trainer's layout: one contiguous row of parameters per replica
+    params = _unflatten(flat, [tuple(t.shape[1:]) for t in Ws + bs])
+    m1, m2 = torch.zeros_like(flat), torch.zeros_like(flat)
+    p_sl, m1_sl, m2_sl = list(flat.unbind(0)), list(m1.unbind(0)), list(m2.unbind(0))
+    counters = [torch.zeros(()) for _ in p_sl]
     counter = torch.zeros(())
     x, y = torch.randn(replicas, rows, spec.input_dim), torch.randn(replicas, rows)
     best = math.inf
@@ -139,11 +144,46 @@ def step_seconds(spec, replicas, rows, low, steps=60, rounds=3):
         t = time.perf_counter()
         for k in range(steps):
             grads = _loss_grads(params[:L], params[L:], x, y, 1.0 / rows, low)
-            counter.fill_(k + 1)
-            torch._fused_adam_(params, grads, m1, m2, [], [counter] * len(params), lr=1e-4, beta1=0.9,
-                               beta2=0.999, weight_decay=0.0, eps=1e-8, amsgrad=False, maximize=False)
+            g_sl = list(_flatten(grads).unbind(0))
+            if update == "public":
+                adam_update(p_sl, g_sl, m1_sl, m2_sl, counters, lr=1e-4, beta1=0.9, beta2=0.999, eps=1e-8)
+            else:
+                counter.fill_(k + 1)
+                torch._fused_adam_(p_sl, g_sl, m1_sl, m2_sl, [], [counter] * len(p_sl), lr=1e-4, beta1=0.9,
+                                   beta2=0.999, weight_decay=0.0, eps=1e-8, amsgrad=False, maximize=False)
         best = min(best, (time.perf_counter() - t) / steps)
     return best
+
+
+def adam_paths():
+    """Per-step time of the trainer with the public fused Adam (torch.optim's functional path) and with
+    the private kernel called directly, 5 replicas, float32, the trainer's thread policy, for the nets of
+    the benchmark grid. Rounds alternate between the two so load drift hits both."""
+    import os
+
+    import torch
+
+    from manireg._threads import torch_threads
+    from manireg.nets.training import auto_threads
+    from manireg.theory import size_network
+
+    if not hasattr(torch, "_fused_adam_"):
+        print(f"torch {torch.__version__} has no torch._fused_adam_: nothing to compare")
+        return 0
+    print(f"torch {torch.__version__}; load average {os.getloadavg()} (2 shared cores)")
+    print(f"{'n':>6} {'width':>5} {'depth':>5} {'rows':>5} | {'public ms':>9} {'private ms':>10} {'public/private':>14}")
+    for n in (256, 512, 1024, 2048, 4096, 8192):
+        n_tr = n - n // 5
+        spec = size_network(n_tr, 2, 1, ambient_dim=64)
+        rows = n_tr if n_tr <= 256 else 128
+        with torch_threads(auto_threads(spec, 5 * rows)):
+            pub, pri = math.inf, math.inf
+            for _ in range(3):
+                pub = min(pub, step_seconds(spec, 5, rows, None, steps=40, rounds=1, update="public"))
+                pri = min(pri, step_seconds(spec, 5, rows, None, steps=40, rounds=1, update="private"))
+        print(f"{n:>6} {spec.width:>5} {spec.depth:>5} {rows:>5} | {pub * 1e3:>9.3f} {pri * 1e3:>10.3f} "
+              f"{pub / pri:>14.3f}", flush=True)
+    return 0
 
 
 def crossover():
@@ -215,7 +255,10 @@ def main(argv=None):
                         help="arithmetic of the batched trainer (the other two are float32)")
     parser.add_argument("--crossover", action="store_true", help="only time float32 vs bfloat16 steps")
     parser.add_argument("--floor", action="store_true", help="only the noise-free floor of each arithmetic")
+    parser.add_argument("--adam", action="store_true", help="only the public vs private fused Adam step times")
     args = parser.parse_args(argv)
+    if args.adam:
+        return adam_paths()
     if args.crossover:
         return crossover()
     if args.floor:
