@@ -522,11 +522,15 @@ def _loss_grads(Ws, bs, x, y, w, low=None, loss="mse"):
     """
     last = len(Ws) - 1
     dt = _layer_dtypes(len(Ws), low)
-    Wc = [W.to(d) for W, d in zip(Ws, dt)]
-    bc = [b.to(d) for b, d in zip(bs, dt)]
+    if low is None:  # float32 throughout: no casts (each is a Python call per layer and step)
+        Wc, bc = Ws, bs
+    else:
+        Wc = [W.to(d) for W, d in zip(Ws, dt)]
+        bc = [b.to(d) for b, d in zip(bs, dt)]
     hs = [x]
     for i in range(last):
-        hs.append(torch.baddbmm(bc[i], hs[-1], Wc[i]).clamp_min_(0.0).to(dt[i + 1]))
+        h = torch.baddbmm(bc[i], hs[-1], Wc[i]).clamp_min_(0.0)
+        hs.append(h if low is None else h.to(dt[i + 1]))
     z = _output_layer(hs[last], Ws[last], bs[last])
     g = output_gradient(loss, z, y, w)
     gW, gb = [None] * len(Ws), [None] * len(Ws)
@@ -546,10 +550,14 @@ def _loss_grads(Ws, bs, x, y, w, low=None, loss="mse"):
     else:
         top = last
     for i in range(top, -1, -1):
-        gW[i] = torch.bmm(hs[i].transpose(1, 2), g).float()
+        gW[i] = torch.bmm(hs[i].transpose(1, 2), g)
+        if low is not None:
+            gW[i] = gW[i].float()
         gb[i] = g.sum(dim=1, keepdim=True, dtype=torch.float32)
         if i > 0:
-            g = torch.ops.aten.threshold_backward(torch.bmm(g, Wc[i].transpose(1, 2)), hs[i], 0.0).to(dt[i - 1])
+            g = torch.ops.aten.threshold_backward(torch.bmm(g, Wc[i].transpose(1, 2)), hs[i], 0.0)
+            if low is not None:
+                g = g.to(dt[i - 1])
     return gW + gb
 
 
@@ -636,7 +644,8 @@ class _ReplicaState:
     masks: list | None = None  # after pruning: 0/1 masks of the weights
     params: list = field(init=False)  # views of flat: weights (R, in, out) then biases (R, 1, out)
     slabs: list = field(init=False)
-    adam_steps: list | None = field(init=False)  # Adam's step count, one scalar per slab (None: rebuild)
+    adam_steps: list | None = field(init=False)
+    row_offsets: torch.Tensor | None = None  # minibatch: (Ra, 1) start of each replica's rows in flat_X  # Adam's step count, one scalar per slab (None: rebuild)
     flat_X: torch.Tensor | None = field(init=False)
     flat_Y: torch.Tensor | None = field(init=False)
 
@@ -998,8 +1007,9 @@ class BatchedTrainer:
             else:
                 if step % chunk == 0:
                     st.idx_chunk = self._draw_chunk(reps, st.active, st.gens, st.buffers, chunk, B, n_max)
-                offsets = torch.arange(Ra, dtype=torch.int64)[:, None] * n_max
-                flat = (st.idx_chunk[:, step % chunk, :] + offsets).reshape(-1)
+                if st.row_offsets is None or st.row_offsets.shape[0] != Ra:
+                    st.row_offsets = torch.arange(Ra, dtype=torch.int64)[:, None] * n_max
+                flat = (st.idx_chunk[:, step % chunk, :] + st.row_offsets).reshape(-1)
                 xb = st.flat_X.index_select(0, flat).view(Ra, B, -1)
                 yb = st.flat_Y.index_select(0, flat).view(Ra, B, *st.Y.shape[2:])
                 wb_rows = None
