@@ -8,6 +8,7 @@ Run as a script (pytest does not collect it):
     python tests/benchmarks/bench_training.py --crossover            # float32 vs bfloat16 step times
     python tests/benchmarks/bench_training.py --floor                # how low each arithmetic gets
     python tests/benchmarks/bench_training.py --adam                 # public vs private fused Adam step
+    python tests/benchmarks/bench_training.py --against REV --quick  # the trainer of git revision REV vs this one
 
 Data: a 2-sphere in R^3 placed in R^64 by a random rotation, target sin(2 x1) + x2 x3 + noise (sd 0.1),
 test MSE against the noise-free target on 2000 points. All three learners get the same hidden sizes
@@ -371,6 +372,52 @@ def floor():
     return 0
 
 
+def against(rev, quick):
+    """The trainer of git revision ``rev`` against the working tree's, the same tasks (5 repeats, the
+    benchmark grid, default float32 config), rounds alternating; per n the best-of-2 seconds of each
+    and each one's fraction of plain torch.mm's rate on the same products."""
+    import importlib.util
+    import os
+    import subprocess
+
+    from manireg._threads import torch_threads  # noqa: F401 - imported by the old module too
+    from manireg.nets import BatchedTrainer, ReplicaTask, TrainConfig
+    from manireg.nets.training import auto_threads
+    from manireg.theory import size_network
+
+    root = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+    src = subprocess.run(["git", "show", f"{rev}:manireg/nets/training.py"], cwd=root, capture_output=True,
+                         text=True, check=True).stdout
+    spec_ = importlib.util.spec_from_loader("_trainer_at_rev", loader=None)
+    old = importlib.util.module_from_spec(spec_)
+    exec(compile(src, f"{rev}:manireg/nets/training.py", "exec"), old.__dict__)
+    cfg = TrainConfig(precision="float32")
+    ns = [256, 512, 1024, 2048] if quick else [256, 512, 1024, 2048, 4096, 8192]
+    print(f"trainer at {rev} (before) against the working tree (after); load average "
+          f"{tuple(round(v, 2) for v in os.getloadavg())} (2 cores shared with other work)")
+    print("| n | before s | after s | before/after | before, of mm | after, of mm | same numbers |")
+    print("|---|---|---|---|---|---|---|")
+    for n in ns:
+        n_tr = n - n // 5
+        data = [make_data(n, seed=1000 * n + r) for r in range(5)]
+        spec = size_network(n_tr, 2, 1, ambient_dim=64)
+        tasks = [ReplicaTask(X[:n_tr], y[:n_tr], X[n_tr:], y[n_tr:], seed=r) for r, (X, y, _) in enumerate(data)]
+        rows = n_tr if n_tr <= cfg.full_batch_threshold else min(cfg.batch_size, n_tr)
+        mm_rate, mm_flops = matched_mm_gflops(spec, rows, auto_threads(spec, 5 * rows))
+        best = {"before": math.inf, "after": math.inf}
+        out = {}
+        for _ in range(2):
+            for name, cls in (("before", old.BatchedTrainer), ("after", BatchedTrainer)):
+                t = time.perf_counter()
+                out[name] = cls(spec, cfg).fit(tasks)
+                best[name] = min(best[name], time.perf_counter() - t)
+        frac = {k: sum(r.steps for r in out[k]) * mm_flops / (mm_rate * 1e9) / best[k] for k in best}
+        same = all((a.val_mse, a.steps) == (b.val_mse, b.steps) for a, b in zip(out["before"], out["after"]))
+        print(f"| {n} | {best['before']:.2f} | {best['after']:.2f} | {best['before'] / best['after']:.2f} | "
+              f"{frac['before']:.2f} | {frac['after']:.2f} | {'yes' if same else 'no'} |", flush=True)
+    return 0
+
+
 def main(argv=None):
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="n up to 2048, 3 repeats")
@@ -380,7 +427,10 @@ def main(argv=None):
     parser.add_argument("--crossover", action="store_true", help="only time float32 vs bfloat16 steps")
     parser.add_argument("--floor", action="store_true", help="only the noise-free floor of each arithmetic")
     parser.add_argument("--adam", action="store_true", help="only the public vs private fused Adam step times")
+    parser.add_argument("--against", metavar="REV", help="only: the trainer of git revision REV vs this one")
     args = parser.parse_args(argv)
+    if args.against:
+        return against(args.against, args.quick)
     if args.adam:
         return adam_paths()
     if args.crossover:
