@@ -221,22 +221,49 @@ def test_hand_written_gradients_and_fused_adam_match_autograd_and_torch_adam():
         if not isinstance(weights, float):
             for a, b in zip(mine, ref):
                 torch.testing.assert_close(a, b, rtol=1e-5, atol=1e-6)
-    # three fused Adam steps on the per-replica slabs (as the trainer calls it) equal torch.optim.Adam's
-    p_fused = [p.detach().clone() for p in params]
-    m1 = [torch.zeros_like(p) for p in p_fused]
-    m2 = [torch.zeros_like(p) for p in p_fused]
-    p_sl, g_sl, m1_sl, m2_sl = _replica_slabs(p_fused, list(ref), m1, m2)
-    steps = [torch.zeros(()) for _ in p_sl]
-    p_ref = [p.detach().clone().requires_grad_(True) for p in params]
-    opt = torch.optim.Adam(p_ref, lr=3e-3, foreach=False)
-    for t in range(3):
-        adam_update(p_sl, g_sl, m1_sl, m2_sl, steps, lr=3e-3, beta1=0.9, beta2=0.999, eps=1e-8)
-        for p, gr in zip(p_ref, ref):
-            p.grad = gr.clone()
-        opt.step()
-    for a, b in zip(p_fused, p_ref):
-        torch.testing.assert_close(a, b.detach(), rtol=1e-5, atol=1e-6)
-    assert [float(s) for s in steps] == [3.0] * len(steps)  # the step counts advance once per call
+    # three fused Adam steps on per-replica slabs (as the trainer calls it), on the private kernel and on
+    # the public fallback, equal torch.optim.Adam's; the two paths agree bit for bit (one kernel)
+    ends = []
+    for private in (True, False):
+        p_fused = [p.detach().clone() for p in params]
+        m1 = [torch.zeros_like(p) for p in p_fused]
+        m2 = [torch.zeros_like(p) for p in p_fused]
+        p_sl, g_sl, m1_sl, m2_sl = _replica_slabs(p_fused, list(ref), m1, m2)
+        p_ref = [p.detach().clone().requires_grad_(True) for p in params]
+        opt = torch.optim.Adam(p_ref, lr=3e-3, foreach=False)
+        for t in range(3):
+            adam_update(p_sl, g_sl, m1_sl, m2_sl, t + 1, lr=3e-3, beta1=0.9, beta2=0.999, eps=1e-8, private=private)
+            for p, gr in zip(p_ref, ref):
+                p.grad = gr.clone()
+            opt.step()
+        for a, b in zip(p_fused, p_ref):
+            torch.testing.assert_close(a, b.detach(), rtol=1e-5, atol=1e-6)
+        ends.append(p_fused)
+    for a, b in zip(*ends):
+        assert torch.equal(a, b)
+
+
+def test_adam_falls_back_to_the_public_path(monkeypatch):
+    # A torch whose private kernel is gone or refuses the call must still train, on the public path.
+    from manireg.nets import training
+
+    def refuses(*args, **kwargs):
+        raise TypeError("unexpected keyword argument")
+
+    spec = size_network(300, 1, 1, ambient_dim=D)
+    tasks = make_tasks([300, 300], seeds=[0, 1])
+    cfg = config(max_steps=30, min_steps=0, eval_every=10)
+    reference = BatchedTrainer(spec, cfg).fit(tasks)
+    # (the public path itself calls the kernel, so the private lookup is what is replaced)
+    monkeypatch.setitem(training._PRIVATE, "disabled", False)
+    monkeypatch.setattr(training, "_private_fused_adam",
+                        lambda: None if training._PRIVATE["disabled"] else refuses)
+    refused = BatchedTrainer(spec, cfg).fit(tasks)
+    assert training._PRIVATE["disabled"]  # switched for the rest of the process
+    monkeypatch.setattr(training, "_private_fused_adam", lambda: None)  # a torch without the kernel
+    absent = BatchedTrainer(spec, cfg).fit(tasks)
+    for a, b, c in zip(reference, refused, absent):
+        assert a.val_mse == b.val_mse == c.val_mse and a.steps == b.steps == c.steps
 
 
 def test_native_bfloat16_uses_public_checks(monkeypatch):

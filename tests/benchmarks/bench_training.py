@@ -248,9 +248,9 @@ def matmul_gflops(size=2048, repeats=5):
 
 def step_seconds(spec, replicas, rows, low, steps=60, rounds=3, update="public"):
     """Best-of-``rounds`` seconds of one trainer step (hand-written backward + fused Adam on per-replica
-    slabs, as the trainer does). ``update="public"`` is the trainer's ``adam_update`` (torch.optim's
-    functional Adam, fused); ``"private"`` calls the fused kernel ``torch._fused_adam_`` directly (what
-    the trainer did before; kept here only to measure the difference)."""
+    slabs, as the trainer does). ``update="public"``: ``adam_update``'s public path (torch.optim's
+    functional Adam, fused); ``"private"``: its private path (the fused kernel ``torch._fused_adam_``
+    called directly, what the trainer uses when torch has it)."""
     import torch
 
     from manireg.nets.training import _flatten, _loss_grads, _stacked_init, _unflatten, adam_update
@@ -261,8 +261,6 @@ def step_seconds(spec, replicas, rows, low, steps=60, rounds=3, update="public")
     params = _unflatten(flat, [tuple(t.shape[1:]) for t in Ws + bs])
     m1, m2 = torch.zeros_like(flat), torch.zeros_like(flat)
     p_sl, m1_sl, m2_sl = list(flat.unbind(0)), list(m1.unbind(0)), list(m2.unbind(0))
-    counters = [torch.zeros(()) for _ in p_sl]
-    counter = torch.zeros(())
     x, y = torch.randn(replicas, rows, spec.input_dim), torch.randn(replicas, rows)
     best = math.inf
     for _ in range(rounds):
@@ -270,12 +268,8 @@ def step_seconds(spec, replicas, rows, low, steps=60, rounds=3, update="public")
         for k in range(steps):
             grads = _loss_grads(params[:L], params[L:], x, y, 1.0 / rows, low)
             g_sl = list(_flatten(grads).unbind(0))
-            if update == "public":
-                adam_update(p_sl, g_sl, m1_sl, m2_sl, counters, lr=1e-4, beta1=0.9, beta2=0.999, eps=1e-8)
-            else:
-                counter.fill_(k + 1)
-                torch._fused_adam_(p_sl, g_sl, m1_sl, m2_sl, [], [counter] * len(p_sl), lr=1e-4, beta1=0.9,
-                                   beta2=0.999, weight_decay=0.0, eps=1e-8, amsgrad=False, maximize=False)
+            adam_update(p_sl, g_sl, m1_sl, m2_sl, k + 1, lr=1e-4, beta1=0.9, beta2=0.999, eps=1e-8,
+                        private=update == "private")
         best = min(best, (time.perf_counter() - t) / steps)
     return best
 
@@ -379,6 +373,7 @@ def against(rev, quick):
     import importlib.util
     import os
     import subprocess
+    import sys
 
     from manireg._threads import torch_threads  # noqa: F401 - imported by the old module too
     from manireg.nets import BatchedTrainer, ReplicaTask, TrainConfig
@@ -390,6 +385,7 @@ def against(rev, quick):
                          text=True, check=True).stdout
     spec_ = importlib.util.spec_from_loader("_trainer_at_rev", loader=None)
     old = importlib.util.module_from_spec(spec_)
+    sys.modules[spec_.name] = old  # dataclasses look their module up
     exec(compile(src, f"{rev}:manireg/nets/training.py", "exec"), old.__dict__)
     cfg = TrainConfig(precision="float32")
     ns = [256, 512, 1024, 2048] if quick else [256, 512, 1024, 2048, 4096, 8192]
@@ -407,9 +403,12 @@ def against(rev, quick):
         best = {"before": math.inf, "after": math.inf}
         out = {}
         for _ in range(2):
-            for name, cls in (("before", old.BatchedTrainer), ("after", BatchedTrainer)):
+            for name, mod in (("before", old), ("after", None)):
+                cls, conf, task = ((BatchedTrainer, cfg, ReplicaTask) if mod is None
+                                   else (mod.BatchedTrainer, mod.TrainConfig(precision="float32"), mod.ReplicaTask))
                 t = time.perf_counter()
-                out[name] = cls(spec, cfg).fit(tasks)
+                out[name] = cls(spec, conf).fit([task(t_.X_train, t_.y_train, t_.X_val, t_.y_val, seed=t_.seed)
+                                                 for t_ in tasks])
                 best[name] = min(best[name], time.perf_counter() - t)
         frac = {k: sum(r.steps for r in out[k]) * mm_flops / (mm_rate * 1e9) / best[k] for k in best}
         same = all((a.val_mse, a.steps) == (b.val_mse, b.steps) for a, b in zip(out["before"], out["after"]))
