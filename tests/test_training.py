@@ -197,9 +197,10 @@ def test_bad_inputs():
 
 
 def test_hand_written_gradients_and_fused_adam_match_autograd_and_torch_adam():
-    # The trainer's backward pass is written out by hand and its update is torch._fused_adam_; check both
-    # against autograd and torch.optim.Adam (reference implementation) on a random stacked net.
-    from manireg.nets.training import _loss_grads
+    # The trainer's backward pass is written out by hand and its update is torch.optim's functional fused
+    # Adam on per-replica slabs; check both against autograd and torch.optim.Adam (reference
+    # implementation, its default single-tensor path) on a random stacked net.
+    from manireg.nets.training import _loss_grads, _replica_slabs, adam_update
 
     g = torch.Generator().manual_seed(0)
     R, B, sizes = 3, 17, [D, 12, 12, 1]
@@ -220,22 +221,65 @@ def test_hand_written_gradients_and_fused_adam_match_autograd_and_torch_adam():
         if not isinstance(weights, float):
             for a, b in zip(mine, ref):
                 torch.testing.assert_close(a, b, rtol=1e-5, atol=1e-6)
-    # one fused Adam step (shared step counter) equals torch.optim.Adam's step
-    p_fused = [p.detach().clone() for p in params]
-    m1 = [torch.zeros_like(p) for p in p_fused]
-    m2 = [torch.zeros_like(p) for p in p_fused]
-    p_ref = [p.detach().clone().requires_grad_(True) for p in params]
-    opt = torch.optim.Adam(p_ref, lr=3e-3)
-    step = torch.zeros(())
-    for t in range(3):
-        step.fill_(t + 1)
-        torch._fused_adam_(p_fused, list(ref), m1, m2, [], [step] * len(p_fused), lr=3e-3, beta1=0.9,
-                           beta2=0.999, weight_decay=0.0, eps=1e-8, amsgrad=False, maximize=False)
-        for p, gr in zip(p_ref, ref):
-            p.grad = gr.clone()
-        opt.step()
-    for a, b in zip(p_fused, p_ref):
-        torch.testing.assert_close(a, b.detach(), rtol=1e-5, atol=1e-6)
+    # three fused Adam steps on per-replica slabs (as the trainer calls it), on the private kernel and on
+    # the public fallback, equal torch.optim.Adam's; the two paths agree bit for bit (one kernel)
+    ends = []
+    for private in (True, False):
+        p_fused = [p.detach().clone() for p in params]
+        m1 = [torch.zeros_like(p) for p in p_fused]
+        m2 = [torch.zeros_like(p) for p in p_fused]
+        p_sl, g_sl, m1_sl, m2_sl = _replica_slabs(p_fused, list(ref), m1, m2)
+        p_ref = [p.detach().clone().requires_grad_(True) for p in params]
+        opt = torch.optim.Adam(p_ref, lr=3e-3, foreach=False)
+        for t in range(3):
+            adam_update(p_sl, g_sl, m1_sl, m2_sl, t + 1, lr=3e-3, beta1=0.9, beta2=0.999, eps=1e-8, private=private)
+            for p, gr in zip(p_ref, ref):
+                p.grad = gr.clone()
+            opt.step()
+        for a, b in zip(p_fused, p_ref):
+            torch.testing.assert_close(a, b.detach(), rtol=1e-5, atol=1e-6)
+        ends.append(p_fused)
+    for a, b in zip(*ends):
+        assert torch.equal(a, b)
+
+
+def test_adam_falls_back_to_the_public_path(monkeypatch):
+    # A torch whose private kernel is gone or refuses the call must still train, on the public path.
+    from manireg.nets import training
+
+    def refuses(*args, **kwargs):
+        raise TypeError("unexpected keyword argument")
+
+    spec = size_network(300, 1, 1, ambient_dim=D)
+    tasks = make_tasks([300, 300], seeds=[0, 1])
+    cfg = config(max_steps=30, min_steps=0, eval_every=10)
+    reference = BatchedTrainer(spec, cfg).fit(tasks)
+    # (the public path itself calls the kernel, so the private lookup is what is replaced)
+    monkeypatch.setitem(training._PRIVATE, "disabled", False)
+    monkeypatch.setattr(training, "_private_fused_adam",
+                        lambda: None if training._PRIVATE["disabled"] else refuses)
+    refused = BatchedTrainer(spec, cfg).fit(tasks)
+    assert training._PRIVATE["disabled"]  # switched for the rest of the process
+    monkeypatch.setattr(training, "_private_fused_adam", lambda: None)  # a torch without the kernel
+    absent = BatchedTrainer(spec, cfg).fit(tasks)
+    for a, b, c in zip(reference, refused, absent):
+        assert a.val_mse == b.val_mse == c.val_mse and a.steps == b.steps == c.steps
+
+
+def test_native_bfloat16_uses_public_checks(monkeypatch):
+    # bfloat16 runs in hardware only with AVX512-BF16 or AMX (Intel's instruction set reference, from
+    # memory): an AVX2 CPU is never "native", an AVX512 one only with the flag.
+    from manireg.nets import training
+
+    monkeypatch.setattr(torch.backends.cpu, "get_cpu_capability", lambda: "AVX2")
+    monkeypatch.setattr(training, "_cpu_flags", lambda: frozenset({"avx2", "avx512_bf16"}))
+    assert not training.native_bfloat16()
+    monkeypatch.setattr(torch.backends.cpu, "get_cpu_capability", lambda: "AVX512")
+    assert training.native_bfloat16()
+    monkeypatch.setattr(training, "_cpu_flags", lambda: frozenset({"avx2", "avx512f"}))
+    assert not training.native_bfloat16()
+    monkeypatch.setattr(training, "_cpu_flags", lambda: frozenset({"amx_bf16", "amx_tile"}))
+    assert training.native_bfloat16()
 
 
 def test_replica_numbers_do_not_depend_on_the_stack():

@@ -122,7 +122,7 @@ def describe_geometry(
     *,
     dimension: int | None = None,
     radius: float | None = None,
-    embed: bool = True,
+    embed: bool | str = True,
     max_embed_points: int = 5000,
     n_boot: int = 200,
     seed: int = 0,
@@ -140,8 +140,10 @@ def describe_geometry(
         :func:`~manireg.geometry.dimension.estimate_dimension` (at least 1).
     radius : float, optional
         Chart radius; default from the reach estimate (see :class:`~manireg.geometry.charts.ChartAtlas`).
-    embed : bool
-        Compute the 2-D view (UMAP; the slowest step on large data).
+    embed : bool or {"spectral", "umap"}
+        Compute the 2-D view: True or ``"spectral"`` for the default Laplacian eigenmap, ``"umap"`` for
+        UMAP (slower than the rest of the read-out; see :func:`~manireg.geometry.embedding.embed_2d`),
+        False for none.
     max_embed_points : int
         The 2-D view uses a seeded subsample of at most this many rows (it is for viewing only).
     n_boot : int
@@ -215,7 +217,7 @@ def _describe(X, y, *, dimension, radius, embed, max_embed_points, n_boot, seed,
         rows = np.arange(X.shape[0])
         if X.shape[0] > max_embed_points:
             rows = np.sort(np.random.default_rng(seed).choice(X.shape[0], max_embed_points, replace=False))
-        emb = embed_2d(X[rows], random_state=seed)
+        emb = embed_2d(X[rows], random_state=seed, method="spectral" if embed is True else embed)
         emb.rows = rows  # which rows of X the view shows
 
     return GeometrySummary(

@@ -30,6 +30,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import torch
+from torch.optim.adam import adam as _functional_adam
 
 from manireg._params import check_params, choice, integer, real
 from manireg._random import derive_seed
@@ -48,7 +49,7 @@ from manireg.nets.losses import LOSSES, output_gradient, probabilities, row_loss
 from manireg.theory.sizing import ArchitectureSpec
 
 __all__ = ["TrainConfig", "ReplicaTask", "ReplicaResult", "BatchedTrainer", "lr_at_step", "auto_threads",
-           "resolve_precision", "native_bfloat16"]
+           "resolve_precision", "native_bfloat16", "adam_update"]
 
 STOP_REASONS = ("patience", "step_cap", "time_cap")
 PRECISIONS = ("auto", "float32", "bfloat16")
@@ -296,22 +297,80 @@ def auto_threads(spec, rows):
     return 1 if 6.0 * spec.n_parameters * rows < 2e8 else None
 
 
+def _cpu_flags() -> frozenset:
+    """The CPU feature flags the operating system reports (Linux ``/proc/cpuinfo``; empty elsewhere)."""
+    try:
+        with open("/proc/cpuinfo", encoding="ascii", errors="replace") as f:
+            for line in f:
+                if line.startswith("flags"):
+                    return frozenset(line.split(":", 1)[1].split())
+    except OSError:
+        pass
+    return frozenset()
+
+
+#: CPU flags that mean bfloat16 matrix products run in hardware (AVX512-BF16 dot products, AMX tiles).
+BF16_FLAGS = frozenset({"avx512_bf16", "amx_bf16"})
+
+
 def native_bfloat16() -> bool:
     """True when this CPU multiplies bfloat16 matrices in hardware (AVX512-BF16 or AMX tiles).
 
     Other CPUs run bfloat16 products through a slower emulation, so ``precision="auto"`` keeps float32
-    there. Uses torch's CPU feature probes (private helpers of the pinned torch; False when absent).
+    there. Public checks only: torch's vector instruction level
+    (``torch.backends.cpu.get_cpu_capability()`` must be an AVX512 level, the kernels that have the
+    bfloat16 dot products) and the CPU flags the operating system reports (:data:`BF16_FLAGS`; Linux's
+    ``/proc/cpuinfo``; other systems report none, so they train in float32 unless asked).
     """
-    probes = ("_is_avx512_bf16_supported", "_is_amx_tile_supported")
-    cpu = getattr(torch, "cpu", None)
-    for name in probes:
-        fn = getattr(cpu, name, None)
-        try:
-            if fn is not None and bool(fn()):
-                return True
-        except Exception:  # pragma: no cover - a probe that fails means "not known to be native"
-            continue
-    return False
+    try:
+        capability = str(torch.backends.cpu.get_cpu_capability())
+    except Exception:  # pragma: no cover - an unknown capability means "not known to be native"
+        return False
+    if not capability.upper().startswith("AVX512"):
+        return False
+    return bool(_cpu_flags() & BF16_FLAGS)
+
+
+def _private_fused_adam():
+    """torch's fused Adam kernel ``torch._fused_adam_`` (private), or None when this torch lacks it or a
+    call failed before (then :func:`adam_update` uses the public path for the rest of the process)."""
+    return None if _PRIVATE["disabled"] else getattr(torch, "_fused_adam_", None)
+
+
+_PRIVATE = {"disabled": False}
+
+
+def adam_update(params, grads, exp_avgs, exp_avg_sqs, step, *, lr, beta1, beta2, eps, private=None):
+    """Adam step number ``step`` (1-based) [1]_ on lists of tensors, in place, with torch's fused CPU kernel.
+
+    The one place the trainer may call a private torch function. The public path is torch.optim's
+    functional Adam (``torch.optim.adam.adam(..., fused=True)``, the path of
+    ``torch.optim.Adam(fused=True)``): it keeps one step-count tensor per parameter and increments them
+    with a separate kernel, a fixed cost per call of about 0.15 ms (measured on 5 tensors) that a small
+    net's step feels (``python tests/benchmarks/bench_training.py --adam``: 7-29 % of a step at
+    n <= 512 on a loaded machine). So when ``torch._fused_adam_`` exists it is called directly with one
+    shared step count -- the same kernel and arithmetic -- and a call it refuses (a future torch with
+    another signature) switches this process to the public path. ``private``: None (that choice), True
+    or False (force one path; the tests compare both).
+
+    The kernel's vector loop starts at each tensor's first entry, so a tensor's update does not depend
+    on the other tensors in the lists.
+    """
+    if private is not False:
+        kernel = _private_fused_adam()
+        if kernel is not None:
+            count = torch.tensor(float(step))
+            try:
+                kernel(params, grads, exp_avgs, exp_avg_sqs, [], [count] * len(params), lr=lr, beta1=beta1,
+                       beta2=beta2, weight_decay=0.0, eps=eps, amsgrad=False, maximize=False)
+                return
+            except TypeError:  # the private signature changed: argument parsing failed, nothing was updated
+                _PRIVATE["disabled"] = True
+        elif private:
+            raise RuntimeError(f"torch {torch.__version__} has no torch._fused_adam_ (private=True).")
+    steps = [torch.tensor(float(step - 1)) for _ in params]  # the public path increments each count itself
+    _functional_adam(params, grads, exp_avgs, exp_avg_sqs, [], steps, fused=True, amsgrad=False,
+                     beta1=beta1, beta2=beta2, lr=lr, weight_decay=0.0, eps=eps, maximize=False)
 
 
 def resolve_precision(config, spec, rows) -> str:
@@ -493,11 +552,15 @@ def _loss_grads(Ws, bs, x, y, w, low=None, loss="mse"):
     """
     last = len(Ws) - 1
     dt = _layer_dtypes(len(Ws), low)
-    Wc = [W.to(d) for W, d in zip(Ws, dt)]
-    bc = [b.to(d) for b, d in zip(bs, dt)]
+    if low is None:  # float32 throughout: no casts (each is a Python call per layer and step)
+        Wc, bc = Ws, bs
+    else:
+        Wc = [W.to(d) for W, d in zip(Ws, dt)]
+        bc = [b.to(d) for b, d in zip(bs, dt)]
     hs = [x]
     for i in range(last):
-        hs.append(torch.baddbmm(bc[i], hs[-1], Wc[i]).clamp_min_(0.0).to(dt[i + 1]))
+        h = torch.baddbmm(bc[i], hs[-1], Wc[i]).clamp_min_(0.0)
+        hs.append(h if low is None else h.to(dt[i + 1]))
     z = _output_layer(hs[last], Ws[last], bs[last])
     g = output_gradient(loss, z, y, w)
     gW, gb = [None] * len(Ws), [None] * len(Ws)
@@ -517,11 +580,31 @@ def _loss_grads(Ws, bs, x, y, w, low=None, loss="mse"):
     else:
         top = last
     for i in range(top, -1, -1):
-        gW[i] = torch.bmm(hs[i].transpose(1, 2), g).float()
+        gW[i] = torch.bmm(hs[i].transpose(1, 2), g)
+        if low is not None:
+            gW[i] = gW[i].float()
         gb[i] = g.sum(dim=1, keepdim=True, dtype=torch.float32)
         if i > 0:
-            g = torch.ops.aten.threshold_backward(torch.bmm(g, Wc[i].transpose(1, 2)), hs[i], 0.0).to(dt[i - 1])
+            g = torch.ops.aten.threshold_backward(torch.bmm(g, Wc[i].transpose(1, 2)), hs[i], 0.0)
+            if low is not None:
+                g = g.to(dt[i - 1])
     return gW + gb
+
+
+def _flatten(tensors):
+    """Stacked (R, ...) tensors as one (R, P) tensor: each replica's entries in one contiguous row."""
+    R = tensors[0].shape[0]
+    return torch.cat([t.reshape(R, -1) for t in tensors], dim=1)
+
+
+def _unflatten(flat, shapes):
+    """Views of the (R, P) tensor ``flat`` as stacked (R, *shape) tensors (the inverse of :func:`_flatten`)."""
+    out, start = [], 0
+    for shape in shapes:
+        size = math.prod(shape)
+        out.append(flat[:, start:start + size].view(flat.shape[0], *shape))
+        start += size
+    return out
 
 
 def _replica_slabs(*stacks):
@@ -570,10 +653,11 @@ class _ReplicaState:
     """
 
     active: list  # position in the group of each active replica
-    params: list  # weights (R, in, out) then biases (R, 1, out)
-    m1: list  # Adam first moments
-    m2: list  # Adam second moments
-    best: list  # best-validation copies of params
+    shapes: list  # per-replica shape of each parameter tensor: weights (in, out) then biases (1, out)
+    flat: torch.Tensor  # (R, P) every replica's parameters, one contiguous row each
+    m1: torch.Tensor  # (R, P) Adam first moments
+    m2: torch.Tensor  # (R, P) Adam second moments
+    best: torch.Tensor  # (R, P) best-validation copy of flat
     best_val: torch.Tensor  # (R,)
     best_step: torch.Tensor  # (R,)
     X: torch.Tensor  # (R, n_max, D) padded training rows
@@ -588,7 +672,9 @@ class _ReplicaState:
     buffers: list | None = None  # minibatch: rows of the current permutation not yet used
     idx_chunk: torch.Tensor | None = None  # minibatch: drawn rows of the current chunk of steps
     masks: list | None = None  # after pruning: 0/1 masks of the weights
+    params: list = field(init=False)  # views of flat: weights (R, in, out) then biases (R, 1, out)
     slabs: list = field(init=False)
+    row_offsets: torch.Tensor | None = None  # minibatch: (Ra, 1) start of each replica's rows in flat_X
     flat_X: torch.Tensor | None = field(init=False)
     flat_Y: torch.Tensor | None = field(init=False)
 
@@ -596,7 +682,8 @@ class _ReplicaState:
         self._derive()
 
     def _derive(self):
-        self.slabs = _replica_slabs(self.params, self.m1, self.m2)
+        self.params = _unflatten(self.flat, self.shapes)
+        self.slabs = [list(self.flat.unbind(0)), list(self.m1.unbind(0)), list(self.m2.unbind(0))]
         if self.gens is None:
             self.flat_X = self.flat_Y = None
         else:
@@ -607,10 +694,7 @@ class _ReplicaState:
         """Keep the replicas at local positions ``rows`` (in this order) and drop the others."""
         ki = torch.tensor(rows, dtype=torch.int64)
         self.active = [self.active[i] for i in rows]
-        self.params = [p[ki].contiguous() for p in self.params]
-        self.m1 = [m[ki].contiguous() for m in self.m1]
-        self.m2 = [m[ki].contiguous() for m in self.m2]
-        self.best = [bp[ki].contiguous() for bp in self.best]
+        self.flat, self.m1, self.m2, self.best = (t[ki].contiguous() for t in (self.flat, self.m1, self.m2, self.best))
         self.best_val, self.best_step = self.best_val[ki], self.best_step[ki]
         self.Xv, self.Yv, self.wv, self.ym, self.ysc = self.Xv[ki], self.Yv[ki], self.wv[ki], self.ym[ki], self.ysc[ki]
         if self.masks is not None:
@@ -653,7 +737,7 @@ class BatchedTrainer:
     replicas (``n <= full_batch_threshold``) are stacked with others of the same n (no padding of the
     training rows, so their reductions do not depend on the other replicas). Groups are trained one after
     another. A step is a hand-written forward/backward pass (``baddbmm``/``bmm``) and one
-    ``torch._fused_adam_`` call on the stacked tensors. A replica that stops leaves the stack (its rows are
+    fused Adam call (:func:`adam_update`) on the stacked tensors. A replica that stops leaves the stack (its rows are
     removed from the weights and Adam moments), so finished replicas cost nothing. Validation MSE is
     computed on the clipped prediction in target units; the training loss is not clipped (clamping has zero
     gradient outside the bound, which would freeze samples there).
@@ -808,8 +892,8 @@ class BatchedTrainer:
         # ---- parameters: (R, in, out) weights, (R, 1, out) biases, one init generator per replica
         Ws, bs = _stacked_init(spec, [derive_seed(p.seed, 0) for p in reps], self.n_outputs)
         L = len(Ws)
-        params = Ws + bs
-        adam_step = torch.zeros((), dtype=torch.float32)  # shared step counter of the fused Adam kernel
+        shapes = [tuple(t.shape[1:]) for t in Ws + bs]
+        flat = _flatten(Ws + bs)  # (R, P): each replica's parameters in one contiguous row
         # ---- data
         n_max = max(p.n for p in reps)
         nv_max = max(p.n_val for p in reps)
@@ -829,10 +913,11 @@ class BatchedTrainer:
         # ---- everything kept per active replica
         st = _ReplicaState(
             active=list(range(R)),
-            params=params,
-            m1=[torch.zeros_like(p) for p in params],
-            m2=[torch.zeros_like(p) for p in params],
-            best=[p.clone() for p in params],
+            shapes=shapes,
+            flat=flat,
+            m1=torch.zeros_like(flat),
+            m2=torch.zeros_like(flat),
+            best=flat.clone(),
             best_val=torch.full((R,), float("inf")),
             best_step=torch.zeros(R, dtype=torch.int64),
             X=_pad_stack([p.X for p in reps], n_max),
@@ -863,8 +948,9 @@ class BatchedTrainer:
         def finish(local, reason, step):
             r = st.active[local]
             p = reps[r]
-            Wb = [st.best[l][local].clone() for l in range(L)]
-            bb = [st.best[L + l][local, 0].clone() for l in range(L)]
+            best = _unflatten(st.best[local:local + 1].clone(), st.shapes)
+            Wb = [w[0] for w in best[:L]]
+            bb = [b[0, 0] for b in best[L:]]
             def restored_mse(X, y):
                 """MSE (target units, clipped) of the restored float32 network on one replica's rows."""
                 z = _forward([w[None] for w in Wb], [b[None, None] for b in bb], X[None])[0]
@@ -918,9 +1004,7 @@ class BatchedTrainer:
                 if bool(improved.any()):
                     st.best_val = torch.where(improved, v, st.best_val)
                     st.best_step = torch.where(improved, torch.full_like(st.best_step, step), st.best_step)
-                    sel = improved
-                    for bp, p in zip(st.best, st.params):
-                        bp.copy_(torch.where(sel.view(-1, *([1] * (p.ndim - 1))), p, bp))
+                    st.best.copy_(torch.where(improved[:, None], st.flat, st.best))
                 reasons = [None] * len(st.active)
                 if step >= cfg.max_steps:
                     reasons = ["step_cap"] * len(st.active)
@@ -951,22 +1035,21 @@ class BatchedTrainer:
             else:
                 if step % chunk == 0:
                     st.idx_chunk = self._draw_chunk(reps, st.active, st.gens, st.buffers, chunk, B, n_max)
-                offsets = torch.arange(Ra, dtype=torch.int64)[:, None] * n_max
-                flat = (st.idx_chunk[:, step % chunk, :] + offsets).reshape(-1)
+                if st.row_offsets is None or st.row_offsets.shape[0] != Ra:
+                    st.row_offsets = torch.arange(Ra, dtype=torch.int64)[:, None] * n_max
+                flat = (st.idx_chunk[:, step % chunk, :] + st.row_offsets).reshape(-1)
                 xb = st.flat_X.index_select(0, flat).view(Ra, B, -1)
                 yb = st.flat_Y.index_select(0, flat).view(Ra, B, *st.Y.shape[2:])
                 wb_rows = None
             grads = _loss_grads(params[:L], params[L:], xb, yb, w_mb if wb_rows is None else wb_rows, low, loss)
             step += 1
-            adam_step.fill_(step)
-            # One fused kernel call for the whole Adam update [1]_ (same formula as torch.optim.Adam:
-            # m/(1-b1^t) / (sqrt(v/(1-b2^t)) + eps)), given each replica's slab of each tensor as its own
-            # tensor: the kernel's vector loop then starts at every replica's first entry, so a
-            # replica's arithmetic does not depend on which other replicas share the stack.
-            (g_slabs,) = _replica_slabs(grads)
-            torch._fused_adam_(st.slabs[0], g_slabs, st.slabs[1], st.slabs[2], [], [adam_step] * len(g_slabs),
-                               lr=lr_at_step(cfg, step - 1), beta1=b1, beta2=b2, weight_decay=0.0, eps=eps,
-                               amsgrad=False, maximize=False)
+            # One fused kernel call for the whole Adam update [1]_ (adam_update), given each replica's row of the flat parameters as its own tensor: the kernel's vector
+            # loop then starts at every replica's first entry, so a replica's arithmetic does not depend on
+            # which other replicas share the stack; one tensor per replica (not per replica and layer)
+            # keeps the per-call overhead of the optimiser's bookkeeping small.
+            g_slabs = _flatten(grads).unbind(0)
+            adam_update(st.slabs[0], g_slabs, st.slabs[1], st.slabs[2], step, lr=lr_at_step(cfg, step - 1),
+                        beta1=b1, beta2=b2, eps=eps)
             if cfg.project_weights:
                 clamp_weights(params[:L], wb)
             if st.masks is not None:

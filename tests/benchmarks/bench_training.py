@@ -1,4 +1,4 @@
-"""Benchmark: batched trainer vs one-at-a-time PyTorch vs scikit-learn's MLPRegressor.
+"""Benchmark: batched trainer vs torch.func's vmap ensemble vs one-at-a-time PyTorch vs scikit-learn's MLPRegressor.
 
 Run as a script (pytest does not collect it):
 
@@ -7,6 +7,8 @@ Run as a script (pytest does not collect it):
     python tests/benchmarks/bench_training.py --precision bfloat16   # the batched side in mixed precision
     python tests/benchmarks/bench_training.py --crossover            # float32 vs bfloat16 step times
     python tests/benchmarks/bench_training.py --floor                # how low each arithmetic gets
+    python tests/benchmarks/bench_training.py --adam                 # public vs private fused Adam step
+    python tests/benchmarks/bench_training.py --against REV --quick  # the trainer of git revision REV vs this one
 
 Data: a 2-sphere in R^3 placed in R^64 by a random rotation, target sin(2 x1) + x2 x3 + noise (sd 0.1),
 test MSE against the noise-free target on 2000 points. All three learners get the same hidden sizes
@@ -24,10 +26,18 @@ the data behind ``manireg.nets.training.BF16_MIN_FLOPS``. ``--floor`` trains 3 r
 and 2000 steps in each arithmetic and prints the test MSE relative to the target's variance: how far down
 each can go.
 
+Four learners on the same data, sizes, budget and early-stopping rule: the batched trainer; torch.func's
+documented ensemble (``stack_module_state`` + ``functional_call`` + ``vmap``, one fused Adam over the
+stacked parameters; it cannot drop a finished replica, so it runs until all have stopped); one PyTorch
+network at a time; scikit-learn's MLPRegressor one at a time on float32 data. Printed ratios are the
+peers' seconds over the batched trainer's.
+
 FLOP count of the batched trainer: ``6 * n_parameters * rows`` per replica and optimiser step (2 flops
 per weight and row forward, 4 backward), summed over replicas and steps; validation passes are not
-counted. It is reported as GFLOP/s and as a fraction of a 2048 x 2048 float32 matmul's GFLOP/s measured
-in the same run.
+counted. It is reported as GFLOP/s, as a fraction of a 2048 x 2048 float32 matmul's GFLOP/s, and as a
+fraction of the rate of plain ``torch.mm`` on the same products (one replica's step: forward, weight
+and input gradients of every layer, at the trainer's thread count), all measured in the same run. The
+last is the fair ceiling for small nets: a 29-wide layer cannot run at a 2048 x 2048 product's rate.
 """
 
 from __future__ import annotations
@@ -109,6 +119,121 @@ def _torch_loop(spec, cfg, Xtr, ytr, Xva, yva, seed):
     return net, step
 
 
+def torch_vmap_ensemble(spec, cfg, data, n_tr, seeds):
+    """torch.func's documented way to train an ensemble at once: ``stack_module_state`` over R networks,
+    ``functional_call`` of one base module under ``vmap``, autograd through the vmapped forward and one
+    ``torch.optim.Adam`` over the stacked parameters. Same init, schedule, batch size, evaluation and
+    early-stopping rule per replica as the others; vmap cannot drop a finished replica from the stack, so
+    the loop runs until every replica has stopped (a stopped replica keeps its best weights). Returns the
+    test predictions function and the number of steps run."""
+    import copy
+
+    import torch
+    from torch.func import functional_call, stack_module_state, vmap
+
+    from manireg._threads import torch_threads
+    from manireg.nets import build_network
+    from manireg.nets.training import auto_threads, lr_at_step
+
+    R = len(data)
+    nets, Xs, Ys, Xvs, Yvs = [], [], [], [], []
+    for (X, y, _), seed in zip(data, seeds):
+        Xtr, ytr = X[:n_tr], y[:n_tr]
+        xm, xs = Xtr.mean(0), Xtr.std(0)
+        xs[xs < 1e-12] = 1.0
+        nets.append(build_network(spec, seed=seed, standardize=(xm, xs), target_scale=(float(ytr.mean()), float(ytr.std()))))
+        Xs.append(Xtr), Ys.append(ytr), Xvs.append(X[n_tr:]), Yvs.append(y[n_tr:])
+    X = torch.tensor(np.stack(Xs), dtype=torch.float32)
+    Y = torch.tensor(np.stack(Ys), dtype=torch.float32)
+    Xv = torch.tensor(np.stack(Xvs), dtype=torch.float32)
+    Yv = torch.tensor(np.stack(Yvs), dtype=torch.float32)
+    params, buffers = stack_module_state(nets)
+    base = copy.deepcopy(nets[0]).to("meta")
+
+    def one(p, b, x):
+        return functional_call(base, (p, b), (x,))
+
+    fwd = vmap(one)
+    opt = torch.optim.Adam(list(params.values()), lr=cfg.learning_rate, fused=True)
+    n = n_tr
+    full = n <= cfg.full_batch_threshold
+    rows = n if full else min(cfg.batch_size, n)
+    gens = [torch.Generator().manual_seed(s) for s in seeds]
+    perms = [torch.randperm(n, generator=g) for g in gens]
+    pos = 0
+    best = torch.full((R,), math.inf)
+    best_step = torch.zeros(R, dtype=torch.int64)
+    best_state = {k: v.detach().clone() for k, v in params.items()}
+    stopped = torch.zeros(R, dtype=torch.bool)
+    ar = torch.arange(R)[:, None]
+    with torch_threads(cfg.n_threads if cfg.n_threads is not None else auto_threads(spec, R * rows)):
+        for step in range(cfg.max_steps + 1):
+            if step % cfg.eval_every == 0 or step == cfg.max_steps:
+                with torch.no_grad():
+                    v = ((fwd(params, buffers, Xv) - Yv) ** 2).mean(dim=1)
+                better = (v < best * (1 - cfg.tol)) & ~stopped
+                best = torch.where(better, v, best)
+                best_step = torch.where(better, torch.full_like(best_step, step), best_step)
+                for k, t in params.items():
+                    best_state[k][better] = t.detach()[better]
+                if step >= cfg.min_steps:
+                    stopped |= (step - best_step) >= cfg.patience_steps
+                if step == cfg.max_steps or bool(stopped.all()):
+                    break
+            if full:
+                xb, yb = X, Y
+            else:
+                if pos + rows > n:
+                    perms, pos = [torch.randperm(n, generator=g) for g in gens], 0
+                idx = torch.stack([p[pos:pos + rows] for p in perms])
+                pos += rows
+                xb, yb = X[ar, idx], Y[ar, idx]
+            for group in opt.param_groups:
+                group["lr"] = lr_at_step(cfg, step)
+            opt.zero_grad(set_to_none=True)
+            loss = ((fwd(params, buffers, xb) - yb) ** 2).mean(dim=1).sum()
+            loss.backward()
+            opt.step()
+
+    def predict(Xte):
+        with torch.no_grad():
+            x = torch.tensor(Xte, dtype=torch.float32)
+            return vmap(one, in_dims=(0, 0, None))(best_state, buffers, x).numpy()
+
+    return predict, step
+
+
+def matched_mm_gflops(spec, rows, threads, repeats=30):
+    """GFLOP/s of plain ``torch.mm`` on one replica's products of one training step: per layer the
+    forward (rows x fan_in)(fan_in x fan_out), the weight gradient and, above the first layer, the input
+    gradient -- the arithmetic the trainer does, without its stacking, its elementwise work or Python."""
+    import torch
+
+    from manireg._threads import torch_threads
+
+    sizes = [spec.input_dim, *spec.hidden_sizes, 1]
+    mats, flops = [], 0.0
+    for i, (a, b) in enumerate(zip(sizes[:-1], sizes[1:])):
+        h, W, g = torch.randn(rows, a), torch.randn(a, b), torch.randn(rows, b)
+        mats.append((h, W))
+        mats.append((h.T.contiguous(), g))
+        flops += 4.0 * rows * a * b
+        if i > 0:
+            mats.append((g, W.T.contiguous()))
+            flops += 2.0 * rows * a * b
+    with torch_threads(threads):
+        for x, y in mats:
+            torch.mm(x, y)
+        best = math.inf
+        for _ in range(3):
+            t = time.perf_counter()
+            for _ in range(repeats):
+                for x, y in mats:
+                    torch.mm(x, y)
+            best = min(best, (time.perf_counter() - t) / repeats)
+    return flops / best / 1e9, flops
+
+
 def matmul_gflops(size=2048, repeats=5):
     import torch
 
@@ -121,29 +246,63 @@ def matmul_gflops(size=2048, repeats=5):
     return 2 * size**3 * repeats / (time.perf_counter() - t) / 1e9
 
 
-def step_seconds(spec, replicas, rows, low, steps=60, rounds=3):
-    """Best-of-``rounds`` seconds of one trainer step (hand-written backward + fused Adam)."""
+def step_seconds(spec, replicas, rows, low, steps=60, rounds=3, update="public"):
+    """Best-of-``rounds`` seconds of one trainer step (hand-written backward + fused Adam on per-replica
+    slabs, as the trainer does). ``update="public"``: ``adam_update``'s public path (torch.optim's
+    functional Adam, fused); ``"private"``: its private path (the fused kernel ``torch._fused_adam_``
+    called directly, what the trainer uses when torch has it)."""
     import torch
 
-    from manireg.nets.training import _loss_grads, _stacked_init
+    from manireg.nets.training import _flatten, _loss_grads, _stacked_init, _unflatten, adam_update
 
     Ws, bs = _stacked_init(spec, range(replicas))
     L = len(Ws)
-    params = Ws + bs
-    m1 = [torch.zeros_like(p) for p in params]
-    m2 = [torch.zeros_like(p) for p in params]
-    counter = torch.zeros(())
+    flat = _flatten(Ws + bs)  # the trainer's layout: one contiguous row of parameters per replica
+    params = _unflatten(flat, [tuple(t.shape[1:]) for t in Ws + bs])
+    m1, m2 = torch.zeros_like(flat), torch.zeros_like(flat)
+    p_sl, m1_sl, m2_sl = list(flat.unbind(0)), list(m1.unbind(0)), list(m2.unbind(0))
     x, y = torch.randn(replicas, rows, spec.input_dim), torch.randn(replicas, rows)
     best = math.inf
     for _ in range(rounds):
         t = time.perf_counter()
         for k in range(steps):
             grads = _loss_grads(params[:L], params[L:], x, y, 1.0 / rows, low)
-            counter.fill_(k + 1)
-            torch._fused_adam_(params, grads, m1, m2, [], [counter] * len(params), lr=1e-4, beta1=0.9,
-                               beta2=0.999, weight_decay=0.0, eps=1e-8, amsgrad=False, maximize=False)
+            g_sl = list(_flatten(grads).unbind(0))
+            adam_update(p_sl, g_sl, m1_sl, m2_sl, k + 1, lr=1e-4, beta1=0.9, beta2=0.999, eps=1e-8,
+                        private=update == "private")
         best = min(best, (time.perf_counter() - t) / steps)
     return best
+
+
+def adam_paths():
+    """Per-step time of the trainer with the public fused Adam (torch.optim's functional path) and with
+    the private kernel called directly, 5 replicas, float32, the trainer's thread policy, for the nets of
+    the benchmark grid. Rounds alternate between the two so load drift hits both."""
+    import os
+
+    import torch
+
+    from manireg._threads import torch_threads
+    from manireg.nets.training import auto_threads
+    from manireg.theory import size_network
+
+    if not hasattr(torch, "_fused_adam_"):
+        print(f"torch {torch.__version__} has no torch._fused_adam_: nothing to compare")
+        return 0
+    print(f"torch {torch.__version__}; load average {os.getloadavg()} (2 shared cores)")
+    print(f"{'n':>6} {'width':>5} {'depth':>5} {'rows':>5} | {'public ms':>9} {'private ms':>10} {'public/private':>14}")
+    for n in (256, 512, 1024, 2048, 4096, 8192):
+        n_tr = n - n // 5
+        spec = size_network(n_tr, 2, 1, ambient_dim=64)
+        rows = n_tr if n_tr <= 256 else 128
+        with torch_threads(auto_threads(spec, 5 * rows)):
+            pub, pri = math.inf, math.inf
+            for _ in range(3):
+                pub = min(pub, step_seconds(spec, 5, rows, None, steps=40, rounds=1, update="public"))
+                pri = min(pri, step_seconds(spec, 5, rows, None, steps=40, rounds=1, update="private"))
+        print(f"{n:>6} {spec.width:>5} {spec.depth:>5} {rows:>5} | {pub * 1e3:>9.3f} {pri * 1e3:>10.3f} "
+              f"{pub / pri:>14.3f}", flush=True)
+    return 0
 
 
 def crossover():
@@ -207,6 +366,57 @@ def floor():
     return 0
 
 
+def against(rev, quick):
+    """The trainer of git revision ``rev`` against the working tree's, the same tasks (5 repeats, the
+    benchmark grid, default float32 config), rounds alternating; per n the best-of-2 seconds of each
+    and each one's fraction of plain torch.mm's rate on the same products."""
+    import importlib.util
+    import os
+    import subprocess
+    import sys
+
+    from manireg._threads import torch_threads  # noqa: F401 - imported by the old module too
+    from manireg.nets import BatchedTrainer, ReplicaTask, TrainConfig
+    from manireg.nets.training import auto_threads
+    from manireg.theory import size_network
+
+    root = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+    src = subprocess.run(["git", "show", f"{rev}:manireg/nets/training.py"], cwd=root, capture_output=True,
+                         text=True, check=True).stdout
+    spec_ = importlib.util.spec_from_loader("_trainer_at_rev", loader=None)
+    old = importlib.util.module_from_spec(spec_)
+    sys.modules[spec_.name] = old  # dataclasses look their module up
+    exec(compile(src, f"{rev}:manireg/nets/training.py", "exec"), old.__dict__)
+    cfg = TrainConfig(precision="float32")
+    ns = [256, 512, 1024, 2048] if quick else [256, 512, 1024, 2048, 4096, 8192]
+    print(f"trainer at {rev} (before) against the working tree (after); load average "
+          f"{tuple(round(v, 2) for v in os.getloadavg())} (2 cores shared with other work)")
+    print("| n | before s | after s | before/after | before, of mm | after, of mm | same numbers |")
+    print("|---|---|---|---|---|---|---|")
+    for n in ns:
+        n_tr = n - n // 5
+        data = [make_data(n, seed=1000 * n + r) for r in range(5)]
+        spec = size_network(n_tr, 2, 1, ambient_dim=64)
+        tasks = [ReplicaTask(X[:n_tr], y[:n_tr], X[n_tr:], y[n_tr:], seed=r) for r, (X, y, _) in enumerate(data)]
+        rows = n_tr if n_tr <= cfg.full_batch_threshold else min(cfg.batch_size, n_tr)
+        mm_rate, mm_flops = matched_mm_gflops(spec, rows, auto_threads(spec, 5 * rows))
+        best = {"before": math.inf, "after": math.inf}
+        out = {}
+        for _ in range(2):
+            for name, mod in (("before", old), ("after", None)):
+                cls, conf, task = ((BatchedTrainer, cfg, ReplicaTask) if mod is None
+                                   else (mod.BatchedTrainer, mod.TrainConfig(precision="float32"), mod.ReplicaTask))
+                t = time.perf_counter()
+                out[name] = cls(spec, conf).fit([task(t_.X_train, t_.y_train, t_.X_val, t_.y_val, seed=t_.seed)
+                                                 for t_ in tasks])
+                best[name] = min(best[name], time.perf_counter() - t)
+        frac = {k: sum(r.steps for r in out[k]) * mm_flops / (mm_rate * 1e9) / best[k] for k in best}
+        same = all((a.val_mse, a.steps) == (b.val_mse, b.steps) for a, b in zip(out["before"], out["after"]))
+        print(f"| {n} | {best['before']:.2f} | {best['after']:.2f} | {best['before'] / best['after']:.2f} | "
+              f"{frac['before']:.2f} | {frac['after']:.2f} | {'yes' if same else 'no'} |", flush=True)
+    return 0
+
+
 def main(argv=None):
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="n up to 2048, 3 repeats")
@@ -215,11 +425,19 @@ def main(argv=None):
                         help="arithmetic of the batched trainer (the other two are float32)")
     parser.add_argument("--crossover", action="store_true", help="only time float32 vs bfloat16 steps")
     parser.add_argument("--floor", action="store_true", help="only the noise-free floor of each arithmetic")
+    parser.add_argument("--adam", action="store_true", help="only the public vs private fused Adam step times")
+    parser.add_argument("--against", metavar="REV", help="only: the trainer of git revision REV vs this one")
     args = parser.parse_args(argv)
+    if args.against:
+        return against(args.against, args.quick)
+    if args.adam:
+        return adam_paths()
     if args.crossover:
         return crossover()
     if args.floor:
         return floor()
+
+    import os
 
     import torch
     from sklearn.neural_network import MLPRegressor
@@ -227,6 +445,7 @@ def main(argv=None):
     from sklearn.preprocessing import StandardScaler
 
     from manireg.nets import BatchedTrainer, ReplicaTask, TrainConfig
+    from manireg.nets.training import auto_threads
     from manireg.theory import size_network
 
     ns = [256, 512, 1024, 2048] if args.quick else [256, 512, 1024, 2048, 4096, 8192]
@@ -235,28 +454,40 @@ def main(argv=None):
     Xte, _, fte = make_data(2000, seed=10**6)
     peak = matmul_gflops()
     print(f"torch {torch.__version__}, threads {torch.get_num_threads()}, repeats {repeats}, config {cfg}")
-    print(f"reference: 2048x2048 float32 matmul {peak:.1f} GFLOP/s")
-    header = (f"{'n':>6} {'width':>5} {'depth':>5} | {'batched s':>9} {'torch1 s':>9} {'sklearn s':>9} | "
-              f"{'mse batched':>11} {'mse torch1':>10} {'mse sklearn':>11} | {'x torch1':>8} {'x sklearn':>9} | "
-              f"{'GFLOP/s':>7} {'of peak':>7} {'stops':>14}")
+    print(f"load average at start {tuple(round(v, 2) for v in os.getloadavg())} (2 cores shared with other work)")
+    print(f"reference: 2048x2048 float32 matmul {peak:.1f} GFLOP/s; 'of mm' = the time plain torch.mm takes for "
+          "the same products (one replica's shapes, the trainer's threads) over the trainer's time")
+    print("peers: vmap = torch.func stack_module_state + functional_call + vmap, one Adam; torch1 = one network at "
+          "a time; sklearn = MLPRegressor one at a time on float32 data")
+    header = (f"{'n':>6} {'width':>5} {'depth':>5} | {'batched s':>9} {'vmap s':>8} {'torch1 s':>8} {'sklearn s':>9} | "
+              f"{'mse batched':>11} {'mse vmap':>9} {'mse torch1':>10} {'mse sklearn':>11} | {'x vmap':>6} "
+              f"{'x torch1':>8} {'x sklearn':>9} | {'GFLOP/s':>7} {'of 2048':>7} {'of mm':>6} {'stops':>14}")
     print(header)
-    tot = {"b": 0.0, "t": 0.0, "s": 0.0, "flops": 0.0}
+    tot = {"b": 0.0, "v": 0.0, "t": 0.0, "s": 0.0, "flops": 0.0}
+    table = []
     for n in ns:
         n_val = n // 5
         data = [make_data(n, seed=1000 * n + r) for r in range(repeats)]
         n_tr = n - n_val
         spec = size_network(n_tr, 2, 1, ambient_dim=64)
         tasks = [ReplicaTask(X[:n_tr], y[:n_tr], X[n_tr:], y[n_tr:], seed=r) for r, (X, y, _) in enumerate(data)]
+        rows = n_tr if n_tr <= cfg.full_batch_threshold else min(cfg.batch_size, n_tr)
+        mm_rate, mm_flops = matched_mm_gflops(spec, rows, auto_threads(spec, repeats * rows))
         # 1) batched
         t = time.perf_counter()
         trainer = BatchedTrainer(spec, cfg)
         res = trainer.fit(tasks)
         tb = time.perf_counter() - t
         mse_b = float(np.mean((trainer.predict(Xte) - fte) ** 2, axis=1).mean())
-        flops = sum(6.0 * spec.n_parameters * min(r.n_train if r.n_train <= cfg.full_batch_threshold
-                                                  else cfg.batch_size, r.n_train) * r.steps for r in res)
+        flops = sum(6.0 * spec.n_parameters * rows * r.steps for r in res)
         gfl = flops / tb / 1e9
-        # 2) one at a time, plain PyTorch
+        of_mm = sum(r.steps for r in res) * mm_flops / (mm_rate * 1e9) / tb
+        # 2) torch.func vmap ensemble
+        t = time.perf_counter()
+        predict, _ = torch_vmap_ensemble(spec, cfg, data, n_tr, list(range(repeats)))
+        tv = time.perf_counter() - t
+        mse_v = float(np.mean((predict(Xte) - fte) ** 2, axis=1).mean())
+        # 3) one at a time, plain PyTorch
         t = time.perf_counter()
         mses = []
         for r, (X, y, _) in enumerate(data):
@@ -265,29 +496,36 @@ def main(argv=None):
                 mses.append(float(((net(torch.tensor(Xte, dtype=torch.float32)).numpy() - fte) ** 2).mean()))
         tt = time.perf_counter() - t
         mse_t = float(np.mean(mses))
-        # 3) scikit-learn
+        # 4) scikit-learn, float32 data (MLPRegressor keeps float32)
         t = time.perf_counter()
         mses = []
         for r, (X, y, _) in enumerate(data):
             skl = make_pipeline(StandardScaler(), MLPRegressor(
                 hidden_layer_sizes=spec.hidden_sizes, batch_size=min(cfg.batch_size, n_tr),
                 learning_rate_init=cfg.learning_rate, early_stopping=True, validation_fraction=0.2,
-                max_iter=200, random_state=r)).fit(X, y)
-            mses.append(float(((skl.predict(Xte) - fte) ** 2).mean()))
+                max_iter=200, random_state=r)).fit(X.astype(np.float32), y.astype(np.float32))
+            mses.append(float(((skl.predict(Xte.astype(np.float32)) - fte) ** 2).mean()))
         ts = time.perf_counter() - t
         mse_s = float(np.mean(mses))
         tot["b"] += tb
+        tot["v"] += tv
         tot["flops"] += flops
         tot["t"] += tt
         tot["s"] += ts
         stops = ",".join(sorted({r.stop_reason for r in res}))
-        print(f"{n:>6} {spec.width:>5} {spec.depth:>5} | {tb:>9.2f} {tt:>9.2f} {ts:>9.2f} | {mse_b:>11.5f} "
-              f"{mse_t:>10.5f} {mse_s:>11.5f} | {tt / tb:>8.2f} {ts / tb:>9.2f} | {gfl:>7.2f} {gfl / peak:>7.3f} "
-              f"{stops:>14}", flush=True)
-    print(f"total seconds: batched {tot['b']:.1f}, torch one-at-a-time {tot['t']:.1f}, sklearn {tot['s']:.1f}; "
-          f"speed-up x{tot['t'] / tot['b']:.2f} over torch one-at-a-time, x{tot['s'] / tot['b']:.2f} over sklearn; "
-          f"batched {tot['flops'] / tot['b'] / 1e9:.2f} GFLOP/s overall = {tot['flops'] / tot['b'] / 1e9 / peak:.3f} "
-          f"of the matmul")
+        table.append((n, spec.width, spec.depth, rows, gfl, mm_rate, of_mm))
+        print(f"{n:>6} {spec.width:>5} {spec.depth:>5} | {tb:>9.2f} {tv:>8.2f} {tt:>8.2f} {ts:>9.2f} | {mse_b:>11.5f} "
+              f"{mse_v:>9.5f} {mse_t:>10.5f} {mse_s:>11.5f} | {tv / tb:>6.2f} {tt / tb:>8.2f} {ts / tb:>9.2f} | "
+              f"{gfl:>7.2f} {gfl / peak:>7.3f} {of_mm:>6.3f} {stops:>14}", flush=True)
+    print(f"total seconds: batched {tot['b']:.1f}, vmap {tot['v']:.1f}, torch one-at-a-time {tot['t']:.1f}, sklearn "
+          f"{tot['s']:.1f}; batched is x{tot['v'] / tot['b']:.2f} vs vmap, x{tot['t'] / tot['b']:.2f} vs torch "
+          f"one-at-a-time, x{tot['s'] / tot['b']:.2f} vs sklearn; batched {tot['flops'] / tot['b'] / 1e9:.2f} GFLOP/s "
+          f"overall = {tot['flops'] / tot['b'] / 1e9 / peak:.3f} of the 2048x2048 matmul")
+    print(f"load average at end {tuple(round(v, 2) for v in os.getloadavg())}")
+    print("\n| n | width x depth | rows/step | trainer GFLOP/s | torch.mm GFLOP/s, same shapes | fraction of the mm rate |")
+    print("|---|---|---|---|---|---|")
+    for n, w, dpt, rows, gfl, mm_rate, of_mm in table:
+        print(f"| {n} | {w} x {dpt} | {rows} | {gfl:.2f} | {mm_rate:.2f} | {of_mm:.2f} |")
     return 0
 
 
