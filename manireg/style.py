@@ -48,6 +48,8 @@ LEARNER_STYLES = {
     "knn_classifier": {"color": "#4e561c", "marker": "P", "label": "k nearest neighbours classifier"},
     "logistic": {"color": "#2f1bcd", "marker": "h", "label": "logistic regression (ambient baseline)"},
     "policy": {"color": "#c0a070", "marker": "v", "label": "policy"},
+    "conv_net": {"color": "#22aafd", "marker": "*", "label": "convolutional network"},
+    "conv_classifier": {"color": "#a76b70", "marker": "d", "label": "convolutional network classifier"},
 }
 
 #: Used, in this order, by names that are not a known kind: the entry is chosen from the name itself

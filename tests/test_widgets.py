@@ -10,7 +10,7 @@ import pytest
 
 pytest.importorskip("ipywidgets")
 
-from manireg.curves import execution, fitting  # noqa: E402
+from manireg.curves import execution, fitting, floors  # noqa: E402
 from manireg.curves.campaign import Campaign  # noqa: E402
 from manireg.data import make_regression, sphere  # noqa: E402
 from manireg.widgets import CurvePanel, GeometryPanel, SizingPanel, WorkbenchPanel  # noqa: E402
@@ -327,8 +327,9 @@ def test_curve_panel_runs_in_background_and_matches_fit_exponent(sample, tmp_pat
     assert ref.verdict in panel.exponent_html.value
     assert set(panel.fits) == {"net", "knn"}
     assert panel.curves_image.value[:4] == b"\x89PNG"
-    # the "estimate" floor is the campaign's own estimate (outside the test rows), not a new one on all rows
-    assert settings["floor"] == "estimate" and settings["noise_variance"] == campaign.noise_level()
+    # the default floor ("fit": within the noise estimate's interval) uses the campaign's own estimate (outside
+    # the test rows), not a new one on all rows
+    assert settings["floor"] == floors.DEFAULT_FLOOR and settings["noise_variance"] == campaign.noise_level()
 
 
 def test_curve_panel_default_fit_is_the_campaign_default(finished_campaign):
@@ -366,7 +367,7 @@ def test_curve_panel_floor_choices_go_through_choose_floor(finished_campaign, mo
     assert [v for _, v in panel.floor.options] == [*floors.FLOOR_CHOICES, "value"]
     assert [lab for lab, _ in panel.floor.options][:3] == [floors.describe_floor(c) for c in floors.FLOOR_CHOICES]
     choice, metric, noise = resolve_spy.calls[-1][0]
-    assert (choice, metric) == ("estimate", "test_mse") and noise == result.noise_level
+    assert (choice, metric) == (floors.DEFAULT_FLOOR, "test_mse") and noise == result.noise_level
     assert panel.learner.value == "net"
     html_before = panel.exponent_html.value
     exp_before = panel.fit.exponent
@@ -409,7 +410,7 @@ def test_curve_panel_floor_choices_go_through_choose_floor(finished_campaign, mo
 
 def test_curve_panel_estimate_floor_without_an_estimate_says_so(finished_campaign):
     rows = finished_campaign.result().rows
-    panel = CurvePanel(rows, dimension=2.0, smoothness=1.0, ambient_dim=5, n_boot=20)
+    panel = CurvePanel(rows, dimension=2.0, smoothness=1.0, ambient_dim=5, n_boot=20, floor="estimate")
     assert panel.noise_estimate is None and panel.fit is None
     assert panel.error is not None and "noise-variance estimate" in panel.error
     assert "none recorded" in panel.noise_html.value
@@ -596,8 +597,6 @@ def test_read_out_fields_and_unknown_learners_do_not_break_the_panel(finished_ca
     """Learners the panel has no label for (evidence cells, say) and curves without a fit are listed with the
     reason; a text field added to ReadOut is shown by the one rendering function."""
     import pandas as pd
-
-    from manireg.curves.readout import ReadOut
     from manireg.widgets.curves import readout_rows
 
     rows = finished_campaign.result().rows
@@ -619,12 +618,8 @@ def test_read_out_fields_and_unknown_learners_do_not_break_the_panel(finished_ca
     panel.learner.value = "net-budget-4x"
     assert panel.error is None and panel.readout is not None
 
-    @dataclasses.dataclass
-    class WithDiagnosis(ReadOut):
-        diagnoses: dict = dataclasses.field(default_factory=dict)
-
-    ro = WithDiagnosis(**{f.name: getattr(panel.readout, f.name) for f in dataclasses.fields(ReadOut)},
-                       diagnoses={"net": "limited by the optimiser: 3 cells moved beyond the seed spread"})
+    ro = dataclasses.replace(panel.readout,
+                             diagnoses={"net": "limited by the optimiser: 3 cells moved beyond the seed spread"})
     shown = dict(readout_rows(ro, "net"))
     assert shown["diagnosis"] == "limited by the optimiser: 3 cells moved beyond the seed spread"
     assert "diagnosis" not in dict(readout_rows(ro, "knn"))

@@ -61,10 +61,11 @@ SIZE_BUTTON_LABEL = "Add missing cells and run"
 _CLASSIFY_PREFERRED = ("excess_logistic_risk", "test_cross_entropy", "test_error_rate")
 #: ReadOut fields shown elsewhere in the panel (numbers, the fit table, the planner) or settings: not text rows.
 _READOUT_ELSEWHERE = ("fits", "plan", "floor", "metric", "dimension", "dimension_interval", "smoothness",
-                      "ambient_dim", "working_dimension", "learner_kinds")
+                      "ambient_dim", "working_dimension", "learner_kinds", "capacity")  # capacity: its own table
 #: Plain labels of ReadOut fields; a field not listed reads as its name without underscores.
 READOUT_LABELS = {"theory": "against its reference rate", "extrapolation": "extrapolation check",
-                  "plan_note": "plan", "floor_note": "floor", "warnings": "warnings", "diagnoses": "diagnosis"}
+                  "plan_note": "plan", "floor_note": "floor", "warnings": "warnings", "diagnoses": "diagnosis",
+                  "evidence": "evidence cells"}
 # stop reasons that reach the verdict text, in plain words
 _STOP_WORDS = {"step_cap": "the step limit", "time_cap": "the time limit"}
 

@@ -323,6 +323,12 @@ def estimate_dimension(
         values = np.array([e.dimension for e in estimates])
         consensus = raw_consensus = float(np.median(values))
         rule = "median of the estimates (no profile: only the correlation dimension was asked for)"
+    D = int(X.shape[1])
+    if consensus > D:  # calibration extrapolates past the ambient dimension: no set of points has d > D
+        warn_list.append(f"the calibrated consensus {consensus:.2f} exceeds the ambient dimension D = {D}; it is "
+                         f"capped at {D} (the points fill their space at these scales).")
+        consensus = float(D)
+        lower, upper = min(lower, D), min(upper, D) if np.isfinite(upper) else upper
     limit = 2.0 * math.log10(X.shape[0])
     if consensus > limit:
         warn_list.append(f"too few points for this dimension: {X.shape[0]} points resolve dimensions up to about "
