@@ -287,15 +287,16 @@ def test_curve_panel(page):
     panel.locator("text=samples needed").wait_for()
     wait_images(panel, 2)  # learning curves, local slopes
     assert "16 of 16 cells finished" in panel.inner_text()
-    assert "noise-variance estimate" in panel.inner_text()  # the default floor, the campaign's estimate
+    assert "noise-variance estimate" in panel.inner_text()  # the campaign's estimate bounds the default floor
     assert "warning: " in panel.inner_text()  # a plan from an unverified fit says so
     assert_no_error(panel)
     model_before = table_value(panel, "model")
+    assert model_before.startswith("power law plus a fitted floor"), model_before  # the default floor, "fit"
     shot(panel, "curve_panel")
 
-    panel.locator(".widget-toggle-button", has_text="fitted with the curve").first.click()
+    panel.locator(".widget-toggle-button", has_text="noise-variance estimate").first.click()
     wait_value_changes(panel, "model", model_before)
-    assert table_value(panel, "model").startswith("power law plus a fitted floor"), table_value(panel, "model")
+    assert table_value(panel, "model").startswith("power law above a given floor"), table_value(panel, "model")
     assert table_value(panel, "exponent")  # still shown with its interval
     assert_no_error(panel)
 
