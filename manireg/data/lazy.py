@@ -156,8 +156,11 @@ class LazyTable:
         out[order] = block[inv]
         return out
 
-    def chunks(self, chunk_rows: int | None = None, start: int = 0, stop: int | None = None):
-        """Yield ``(first_row, block)`` over rows ``start:stop``, blocks of at most ``chunk_rows`` rows (float64)."""
+    def chunks(self, chunk_rows: int | None = None, start: int = 0, stop: int | None = None, dtype=np.float64):
+        """Yield ``(first_row, block)`` over rows ``start:stop``, blocks of at most ``chunk_rows`` rows.
+
+        ``dtype``: the type of the blocks (float64 by default; ``np.float32`` of a float32 file skips a copy
+        that is twice the stored block)."""
         step = int(chunk_rows or self.chunk_rows)
         stop = self.shape[0] if stop is None else min(int(stop), self.shape[0])
         if self.format == "parquet" and chunk_rows is None:
@@ -165,10 +168,10 @@ class LazyTable:
                 if b <= start or a >= stop:
                     continue
                 lo, hi = max(a, start), min(b, stop)
-                yield lo, self._read_range(lo, hi)
+                yield lo, self._read_range(lo, hi, dtype)
             return
         for a in range(start, stop, step):
-            yield a, self._read_range(a, min(a + step, stop))
+            yield a, self._read_range(a, min(a + step, stop), dtype)
 
     def target(self) -> np.ndarray | None:
         """The target column as float64 (n,), or None when the table has no target."""
@@ -212,7 +215,11 @@ class LazyTable:
         lo = np.full(D, np.inf)
         hi = np.full(D, -np.inf)
         n_chunks = 0
-        for c, (a, block) in enumerate(self.chunks()):
+        # blocks in the stored precision (float32 stays float32: half the memory); the fingerprint hashes
+        # float64 bytes, converted a slice at a time
+        read_as = np.float32 if self.dtype == np.float32 else np.float64
+        piece = max(1, (8 * 2**20) // (8 * max(D, 1)))
+        for c, (a, block) in enumerate(self.chunks(dtype=read_as)):
             n_chunks += 1
             bad = ~np.isfinite(block)
             if bad.any():
@@ -226,7 +233,8 @@ class LazyTable:
                 continue
             if bad_total:
                 continue
-            h.update(np.ascontiguousarray(block).tobytes())
+            for i in range(0, len(block), piece):
+                h.update(np.ascontiguousarray(block[i:i + piece], dtype=np.float64).data.cast("B"))
             np.minimum(lo, block.min(axis=0), out=lo)
             np.maximum(hi, block.max(axis=0), out=hi)
         if bad_total:
@@ -268,13 +276,13 @@ class LazyTable:
         node = self._zarr_group()
         return node if self._zarr_kind == "array" else node["X"]
 
-    def _read_range(self, a: int, b: int) -> np.ndarray:
+    def _read_range(self, a: int, b: int, dtype=np.float64) -> np.ndarray:
         if self.format == "npy":
             mm = self._memmap()
             try:
                 block = mm[a:b]
                 block = block[:, self._columns] if self._columns is not None else block
-                return np.array(block, dtype=np.float64)
+                return np.array(block, dtype=dtype)
             finally:
                 del mm
         if self.format == "parquet":
@@ -284,9 +292,9 @@ class LazyTable:
                     continue
                 t = self._read_group(g)
                 parts.append(t[max(a, ga) - ga:min(b, gb) - ga])
-            return np.vstack(parts) if parts else np.empty((0, self.shape[1]))
+            return (np.vstack(parts) if parts else np.empty((0, self.shape[1]))).astype(dtype, copy=False)
         z = self._zarr_X()
-        block = np.asarray(z[a:b], dtype=np.float64)
+        block = np.asarray(z[a:b], dtype=dtype)
         return block[:, self._columns] if self._columns is not None else block
 
     def _read_group(self, g: int) -> np.ndarray:

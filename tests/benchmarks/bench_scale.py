@@ -33,7 +33,8 @@ def ensure(d, rows, dim):
 
 
 class Peak:
-    """Peak resident memory of this process: psutil samples every 20 ms and the kernel's high-water mark."""
+    """Peak resident memory of this process and its children: psutil samples every 20 ms, and the kernel's
+    high-water mark of this process."""
 
     def __init__(self):
         import threading
@@ -44,9 +45,18 @@ class Peak:
         self.t = threading.Thread(target=self._run, daemon=True)
         self.t.start()
 
+    def _rss(self):
+        total = self.proc.memory_info().rss
+        for c in self.proc.children(recursive=True):
+            try:
+                total += c.memory_info().rss
+            except Exception:  # a child that ended between the listing and the read
+                pass
+        return total
+
     def _run(self):
         while not self.stop:
-            self.peak = max(self.peak, self.proc.memory_info().rss)
+            self.peak = max(self.peak, self._rss())
             time.sleep(0.02)
 
     def done(self):
