@@ -3,7 +3,7 @@ LocalCluster. Prints time, peak memory (psutil) and the load average beside each
 
     python tests/benchmarks/bench_scale.py geometry --rows 100000 300000 1000000 --dim 256 --dir DIR
     python tests/benchmarks/bench_scale.py ann --rows 100000 --dim 256 --dir DIR
-    python tests/benchmarks/bench_scale.py campaign --rows 100000 --dim 256 --sizes 1000 4000 16000 --dir DIR
+    python tests/benchmarks/bench_scale.py campaign --rows 300000 --dim 256 --sizes 10000 100000 250000 --repeats 1 --each-size --dir DIR
 
 Files are written once per (rows, dim) into DIR with manireg.data.write_synthetic (graph manifold, d = 4,
 float32). Each measurement runs in a fresh process so its peak resident memory is its own.
@@ -106,7 +106,11 @@ def one_ann(path, k, queries):
             "recall": recall, "peak_mb": peak.done() / 2**20}
 
 
-def one_campaign(path, sizes, repeats, workers):
+def one_campaign(path, sizes, repeats, workers, learners=("net", "knn")):
+    """One campaign on a LocalCluster of ``workers`` single-thread worker processes (and a scheduler process of
+    its own, so its memory is measured apart from this client's)."""
+    import threading
+
     import psutil
     from distributed import Client, LocalCluster
 
@@ -118,10 +122,9 @@ def one_campaign(path, sizes, repeats, workers):
     cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None)
     client = Client(cluster)
     worker_pids = list(client.run(os.getpid).values())
+    sched_pid = client.run_on_scheduler(os.getpid)
     peaks = {p: 0 for p in worker_pids}
-    sched = {"peak": 0}
-    import threading
-
+    mem = {"scheduler": 0, "client": 0}
     stop = []
 
     def watch():
@@ -132,15 +135,25 @@ def one_campaign(path, sizes, repeats, workers):
                     peaks[p] = max(peaks[p], psutil.Process(p).memory_info().rss)
                 except psutil.Error:
                     pass
-            sched["peak"] = max(sched["peak"], me.memory_info().rss)
+            try:
+                mem["scheduler"] = max(mem["scheduler"], psutil.Process(sched_pid).memory_info().rss)
+            except psutil.Error:
+                pass
+            mem["client"] = max(mem["client"], me.memory_info().rss)
             time.sleep(0.05)
 
     th = threading.Thread(target=watch, daemon=True)
     th.start()
     table = open_table(path, -1)
-    net = LearnerSpec("net", params={"max_steps": 300, "eval_every": 50, "patience_steps": 200, "min_steps": 50})
-    camp = Campaign(X=table, y=None, sizes=sizes, repeats=repeats, learners=[net, LearnerSpec("knn")], dimension=4.0,
-                    smoothness=1.0, seed=0, name="bench", store=store, test_size=2000)
+    specs = []
+    for name in learners:
+        if name == "net":
+            specs.append(LearnerSpec("net", params={"max_steps": 300, "eval_every": 50, "patience_steps": 200,
+                                                    "min_steps": 50}))
+        else:
+            specs.append(LearnerSpec(name))
+    camp = Campaign(X=table, y=None, sizes=sizes, repeats=repeats, learners=specs, dimension=4.0, smoothness=1.0,
+                    seed=0, name="bench", store=store, test_size=2000)
     t0 = time.perf_counter()
     res = camp.run(executor="dask", scheduler=client, progress=False)
     sec = time.perf_counter() - t0
@@ -148,12 +161,14 @@ def one_campaign(path, sizes, repeats, workers):
     th.join()
     rows = res.rows
     per = rows.groupby(["learner", "n"])["seconds"].mean().round(2).to_dict()
+    status = rows["status"].value_counts().to_dict()
     client.close()
     cluster.close()
     os.remove(store)
-    return {"cells": len(rows), "seconds": sec, "cell_seconds": {f"{l}@{n}": v for (l, n), v in per.items()},
-            "worker_peak_mb": [v / 2**20 for v in peaks.values()], "client_process_peak_mb": sched["peak"] / 2**20,
-            "note": "the scheduler runs in the client process of a LocalCluster; its peak includes the client"}
+    return {"cells": len(rows), "status": status, "seconds": sec,
+            "cell_seconds": {f"{l}@{n}": v for (l, n), v in per.items()},
+            "worker_peak_mb": [round(v / 2**20) for v in peaks.values()],
+            "scheduler_peak_mb": round(mem["scheduler"] / 2**20), "client_peak_mb": round(mem["client"] / 2**20)}
 
 
 def _child(kind, kwargs):
@@ -178,6 +193,9 @@ def main():
     ap.add_argument("--sizes", type=int, nargs="+", default=[1000, 4000, 16000])
     ap.add_argument("--repeats", type=int, default=2)
     ap.add_argument("--workers", type=int, default=2)
+    ap.add_argument("--each-size", action="store_true",
+                    help="campaign: one cluster per size, so each size's worker peak is its own")
+    ap.add_argument("--learners", nargs="+", default=["net", "knn"])
     a = ap.parse_args()
     for rows in a.rows:
         p = ensure(a.dir, rows, a.dim)
@@ -187,7 +205,14 @@ def main():
         elif a.what == "ann":
             r = _child("ann", {"path": p, "k": 20, "queries": 500})
         else:
-            r = _child("campaign", {"path": p, "sizes": a.sizes, "repeats": a.repeats, "workers": a.workers})
+            for sizes in ([[n] for n in a.sizes] if a.each_size else [a.sizes]):
+                load = os.getloadavg()[0]
+                r = _child("campaign", {"path": p, "sizes": sizes, "repeats": a.repeats, "workers": a.workers,
+                                        "learners": a.learners})
+                r.update(rows=rows, dim=a.dim, sizes=sizes, load_before=round(load, 2),
+                         load_after=round(os.getloadavg()[0], 2))
+                print(json.dumps(r), flush=True)
+            continue
         r.update(rows=rows, dim=a.dim, load_before=round(load, 2), load_after=round(os.getloadavg()[0], 2))
         print(json.dumps(r), flush=True)
 
