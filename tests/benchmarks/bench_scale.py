@@ -42,6 +42,7 @@ class Peak:
         import psutil
 
         self.proc, self.peak, self.stop = psutil.Process(), 0, False
+        self.phase, self.phases = "start", {}
         self.t = threading.Thread(target=self._run, daemon=True)
         self.t.start()
 
@@ -56,7 +57,9 @@ class Peak:
 
     def _run(self):
         while not self.stop:
-            self.peak = max(self.peak, self._rss())
+            rss = self._rss()
+            self.peak = max(self.peak, rss)
+            self.phases[self.phase] = max(self.phases.get(self.phase, 0), rss)
             time.sleep(0.02)
 
     def done(self):
@@ -71,11 +74,32 @@ def one_geometry(path, queries, landmarks):
     from manireg.data import open_table
     from manireg.geometry.ondisk import describe_geometry_on_disk
 
+    from manireg.geometry import neighbors
+
     peak = Peak()
+    peak.phase = "libraries"
+    table = open_table(path, -1)
+    scan, stream = table.scan, neighbors.stream_kneighbors
+
+    def phased(name, fn, after):
+        def run(*a, **kw):
+            peak.phase = name
+            out = fn(*a, **kw)
+            peak.phase = after
+            return out
+        return run
+
+    # the peak of each step: the check pass, the neighbour pass, the estimates, the charts
+    table.scan = phased("check", scan, "between")
+    neighbors.stream_kneighbors = phased("neighbours", stream, "estimates")
+    step = lambda name: setattr(peak, "phase", name) if name == "charts" else None  # noqa: E731
     t0 = time.perf_counter()
-    g = describe_geometry_on_disk(open_table(path, -1), n_queries=queries, n_landmarks=landmarks, seed=0)
+    g = describe_geometry_on_disk(table, n_queries=queries, n_landmarks=landmarks, seed=0, callback=step)
     sec = time.perf_counter() - t0
-    return {"seconds": sec, "peak_mb": peak.done() / 2**20, "mle": g.estimates["mle"], "twonn": g.estimates["twonn"],
+    total = peak.done()
+    return {"seconds": sec, "peak_mb": total / 2**20,
+            "phase_peak_mb": {k: round(v / 2**20) for k, v in peak.phases.items()},
+            "mle": g.estimates["mle"], "twonn": g.estimates["twonn"],
             "steps": g.seconds, "charts": g.atlas.n_charts, "reach": None if g.reach is None else g.reach.reach}
 
 
