@@ -419,9 +419,13 @@ def query_neighbors(reference, queries, k: int, *, method: str = "auto", random_
 
     This is the neighbour search of the kNN baselines; :func:`kneighbors` is the one of the geometry. "auto"
     searches exactly (scikit-learn, brute force) up to :data:`QUERY_APPROXIMATE_ABOVE` reference rows and
-    with a nearest-neighbour descent index (pynndescent) above. The index gives the first ``self_rows``
-    queries, which must be the reference rows ``0..self_rows-1`` in order, their neighbours from its own
-    graph (no search), and searches the rest.
+    with a nearest-neighbour descent graph (pynndescent) above, built over the reference rows and the queries
+    together (the first ``self_rows`` queries, which must be the reference rows ``0..self_rows-1`` in order,
+    are not added twice). Each query's neighbours are read from that graph, reference rows only; a query
+    whose graph row holds fewer than k reference rows is searched exactly. Reading the graph instead of
+    searching a built index matters on manifold data: on a 3-dimensional graph manifold in R^20 (3,000
+    training points, k = 15) the index's search found none of the 15 true neighbours for some test points
+    and the kNN test error moved by 11 %, while the graph's own rows had recall 0.9999.
 
     Parameters
     ----------
@@ -449,21 +453,33 @@ def query_neighbors(reference, queries, k: int, *, method: str = "auto", random_
         return QueryNeighbors(_brute_indices(reference, queries, k), "exact")
     from pynndescent import NNDescent
 
-    R = np.ascontiguousarray(reference, dtype=np.float32)
-    index = NNDescent(R, n_neighbors=max(k, 10), random_state=random_state, n_jobs=1, low_memory=True)
-    idx = np.empty((queries.shape[0], k), dtype=np.int64)
+    m = queries.shape[0]
+    # one index over the reference rows and the other queries together: each query's neighbours are read from
+    # the index's own graph (its recall is far higher than a search of the built index, which can end in the
+    # wrong part of a manifold's graph), keeping reference rows only. The graph lists enough neighbours that
+    # k of them are reference rows for almost every query; a query left short is searched exactly.
+    extra = queries[self_rows:]
+    share = n / (n + extra.shape[0])
+    width = int(min(n + extra.shape[0] - 1, np.ceil((k + 3 * np.sqrt(k) + 2) / share)))
+    U = np.ascontiguousarray(np.vstack([reference, extra]) if extra.shape[0] else reference, dtype=np.float32)
+    graph = NNDescent(U, n_neighbors=max(width, 10), random_state=random_state, n_jobs=1,
+                      low_memory=True).neighbor_graph[0].astype(np.int64)
+    del U
+    rows = np.concatenate([np.arange(self_rows), n + np.arange(extra.shape[0])])
+    cand = graph[rows]
+    del graph
+    # a reference row that is its own query lists itself first, as an exact search does
+    own = np.arange(self_rows)
     if self_rows:
-        own = index.neighbor_graph[0][:self_rows].astype(np.int64)
-        # each row lists itself first (distance 0), as an exact search does; where the index put it
-        # elsewhere or left it out, it is moved to the front
-        rows = np.arange(self_rows)[:, None]
-        is_self = own == rows
-        others = np.take_along_axis(own, np.argsort(is_self, axis=1, kind="stable"), axis=1)  # self to the end
-        idx[:self_rows] = np.concatenate([rows, others], axis=1)[:, :k]
-    if queries.shape[0] > self_rows:
-        index.prepare()
-        found, _ = index.query(np.ascontiguousarray(queries[self_rows:], dtype=np.float32), k=k)
-        idx[self_rows:] = found
+        cand[:self_rows] = np.where(cand[:self_rows] == own[:, None], -1, cand[:self_rows])
+        cand = np.concatenate([np.concatenate([own, np.full(m - self_rows, -1)])[:, None], cand], axis=1)
+    keep = (cand >= 0) & (cand < n)
+    order = np.argsort(~keep, axis=1, kind="stable")  # reference rows first, in the graph's distance order
+    cand = np.take_along_axis(cand, order, axis=1)
+    short = np.flatnonzero(keep.sum(axis=1) < k)
+    idx = np.ascontiguousarray(cand[:, :k])
+    if short.size:
+        idx[short] = _brute_indices(reference, queries[short], k)
     out = QueryNeighbors(idx, "approximate", float("nan"), 0)
     if recall_queries:
         q = min(int(recall_queries), queries.shape[0])
