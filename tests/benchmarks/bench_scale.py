@@ -218,7 +218,7 @@ def main():
     ap.add_argument("--repeats", type=int, default=2)
     ap.add_argument("--workers", type=int, default=2)
     ap.add_argument("--each-size", action="store_true",
-                    help="campaign: one cluster per size, so each size's worker peak is its own")
+                    help="campaign: one cluster per size (beside a 1,000-row size), so each size's worker peak is its own")
     ap.add_argument("--learners", nargs="+", default=["net", "knn"])
     a = ap.parse_args()
     for rows in a.rows:
@@ -229,7 +229,8 @@ def main():
         elif a.what == "ann":
             r = _child("ann", {"path": p, "k": 20, "queries": 500})
         else:
-            for sizes in ([[n] for n in a.sizes] if a.each_size else [a.sizes]):
+            # a campaign needs two sizes: each size runs beside a 1,000-row one
+            for sizes in ([sorted({1000, n}) for n in a.sizes] if a.each_size else [a.sizes]):
                 load = os.getloadavg()[0]
                 r = _child("campaign", {"path": p, "sizes": sizes, "repeats": a.repeats, "workers": a.workers,
                                         "learners": a.learners})
