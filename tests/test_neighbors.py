@@ -93,7 +93,7 @@ def test_knn_regression_on_the_approximate_index_agrees_with_exact():
     from manireg.geometry.neighbors import query_neighbors
 
     rng = np.random.default_rng(5)
-    X = sphere(3000, d=2, ambient_dim=10, seed=5).X
+    X = sphere(3000, d=2, ambient_dim=10, seed=5).points
     y = np.sin(3 * X[:, 0]) + X[:, 1] + 0.1 * rng.standard_normal(3000)
     tr, te = slice(0, 2500), slice(2500, 3000)
     Q = np.vstack([X[tr], X[te]])
