@@ -115,9 +115,9 @@ def knn_regress(X_train, y_train, X_query, k, *, method="auto", random_state=0) 
         Neighbours, in ``[1, n]``.
     method : {"auto", "exact", "approximate"}, default="auto"
         Neighbour search (:func:`manireg.geometry.neighbors.query_neighbors`): exact up to
-        ``QUERY_APPROXIMATE_ABOVE`` training points, a nearest-neighbour descent index above. When the
-        queries start with the training points themselves (as in a campaign cell), the index answers those
-        from its own graph.
+        ``QUERY_APPROXIMATE_ABOVE`` training points; above, one nearest-neighbour descent graph over the
+        training points and the queries, each query's neighbours read from it. Queries that start with the
+        training points themselves (as in a campaign cell) are recognised and not added twice.
     random_state : int, default=0
         Seed of the approximate index.
 
