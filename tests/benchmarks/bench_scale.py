@@ -131,8 +131,8 @@ def one_ann(path, k, queries):
 
 
 def one_campaign(path, sizes, repeats, workers, learners=("net", "knn")):
-    """One campaign on a LocalCluster of ``workers`` single-thread worker processes (and a scheduler process of
-    its own, so its memory is measured apart from this client's)."""
+    """One campaign on a LocalCluster of ``workers`` single-thread worker processes. The scheduler's memory is
+    read from its process, which for a LocalCluster is this client process (flagged in the result)."""
     import threading
 
     import psutil
@@ -192,7 +192,9 @@ def one_campaign(path, sizes, repeats, workers, learners=("net", "knn")):
     return {"cells": len(rows), "status": status, "seconds": sec,
             "cell_seconds": {f"{l}@{n}": v for (l, n), v in per.items()},
             "worker_peak_mb": [round(v / 2**20) for v in peaks.values()],
-            "scheduler_peak_mb": round(mem["scheduler"] / 2**20), "client_peak_mb": round(mem["client"] / 2**20)}
+            "scheduler_peak_mb": round(mem["scheduler"] / 2**20), "client_peak_mb": round(mem["client"] / 2**20),
+            # a LocalCluster runs its scheduler in this (the client's) process: then the two figures are one
+            "scheduler_in_client_process": sched_pid == os.getpid()}
 
 
 def _child(kind, kwargs):
