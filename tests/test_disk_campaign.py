@@ -5,7 +5,6 @@ from __future__ import annotations
 
 import pickle
 
-import numpy as np
 import pytest
 
 from manireg.curves import LearnerSpec
@@ -35,25 +34,46 @@ def _rows(result):
     return result.rows.sort_values("key")[METRICS].reset_index(drop=True)
 
 
-def test_disk_campaign_rows_equal_in_memory_rows(disk, tmp_path):
+@pytest.fixture(scope="module")
+def in_memory(disk, tmp_path_factory):
+    """The reference: the same campaign on the table loaded in memory (run once for the module)."""
     mem = load_table(disk.path, disk.target_name)
-    a = _campaign(mem.X, mem.y, tmp_path / "a.sqlite").run(progress=False)
+    return _rows(_campaign(mem.X, mem.y, tmp_path_factory.mktemp("mem") / "a.sqlite").run(progress=False))
+
+
+def test_disk_campaign_rows_equal_in_memory_rows(disk, in_memory, tmp_path):
     table = open_table(disk.path, disk.target_name)
     camp = _campaign(table, None, tmp_path / "b.sqlite")
     assert camp.data.on_disk and len(pickle.dumps(camp.data)) < 20_000  # the task data carries no array
     b = camp.run(progress=False)  # worker processes read from the file in the dask and dying-worker tests
     # same values, same cell keys (the fingerprint of the file equals the array's), same numbers bit for bit
-    assert len(a.rows) == len(b.rows) == 12
-    assert _rows(a).equals(_rows(b))
+    assert len(in_memory) == len(b.rows) == 12
+    assert in_memory.equals(_rows(b))
 
 
-def test_disk_campaign_on_a_dask_cluster_equals_in_memory(disk, tmp_path):
+def test_dask_worker_that_dies_mid_cell_is_retried_and_rows_equal_in_memory(disk, in_memory, tmp_path):
+    # one LocalCluster checks both: worker processes read their rows from the file (rows equal the in-memory
+    # campaign bit for bit), and a worker killed in the middle of a cell has the cell run again elsewhere
+    # (dask reschedules the tasks of a lost worker), written once
     pytest.importorskip("distributed")
-    mem = load_table(disk.path, disk.target_name)
-    a = _campaign(mem.X, mem.y, tmp_path / "a.sqlite", learners=("knn",)).run(progress=False)
-    b = _campaign(open_table(disk.path, disk.target_name), None, tmp_path / "b.sqlite", learners=("knn",)).run(
-        executor="dask", n_jobs=2, progress=False)
-    assert _rows(a).equals(_rows(b))
+    import sys
+    from pathlib import Path
+
+    sys.path.insert(0, str(Path(__file__).parent))
+    from _disk_worker import dying
+
+    flag = tmp_path / "die"
+    flag.write_text("")
+    n_fit = 160 - round(0.2 * 160)
+    table = dying(open_table(disk.path, disk.target_name), flag, n_fit, once=True)
+    store = tmp_path / "b.sqlite"
+    b = _campaign(table, None, store, learners=("knn",)).run(executor="dask", n_jobs=2, progress=False)
+    assert not flag.exists()  # a worker did die in a size-160 cell
+    rows = ResultStore(store).rows("disk")
+    assert len(rows) == 6 and rows["key"].is_unique and set(rows["status"]) == {"ok"}
+    cols = ["key", "n", "repeat", "seed", "train_mse", "val_mse", "test_mse", "status"]  # what a kNN row fills
+    knn = in_memory.loc[in_memory["learner"] == "knn", cols].reset_index(drop=True)
+    assert knn.equals(_rows(b)[cols])
 
 
 def test_unanswered_scheduler_address_fails_fast_and_keeps_the_store(disk, tmp_path, monkeypatch):
@@ -95,6 +115,7 @@ def test_worker_that_dies_mid_cell_leaves_the_cell_for_the_resume(disk, tmp_path
     assert set(kept["status"]) <= {"ok"} and len(kept) < 6 and kept["key"].is_unique
     assert 160 not in set(kept["n"])  # the cells that were running were not written
     flag.unlink()
-    result = _campaign(table, None, store, learners=("knn",)).run(executor="processes", n_jobs=2, progress=False)
+    # the resume runs in this process: what it checks is which cells run, not where
+    result = _campaign(table, None, store, learners=("knn",)).run(progress=False)
     rows = ResultStore(store).rows("disk")
     assert len(rows) == 6 and rows["key"].is_unique and set(result.rows["status"]) == {"ok"}

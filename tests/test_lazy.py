@@ -132,3 +132,37 @@ def test_pickled_table_is_small_and_reads_the_same(written):
     blob = pickle.dumps(t)
     assert len(blob) < 5_000
     np.testing.assert_array_equal(pickle.loads(blob).rows([1, 2]), t.rows([1, 2]))
+
+
+def test_nan_in_the_target_names_the_row_and_chunk(tmp_path):
+    A = np.random.default_rng(1).standard_normal((50, 4))
+    A[23, 3] = np.nan  # the target is the last column
+    np.save(tmp_path / "t.npy", A)
+    with pytest.raises(DataValidationError, match=r"target 'c3' has 1 missing or infinite value\(s\).*first at row 23 \(chunk 2\)"):
+        open_table(tmp_path / "t.npy", -1, chunk_rows=10).scan()
+
+
+def test_truncated_npy_is_named_at_open_and_at_read(tmp_path):
+    A = np.arange(400.0).reshape(100, 4)
+    p = tmp_path / "t.npy"
+    np.save(p, A)
+    t = open_table(p)
+    size = p.stat().st_size
+    with open(p, "r+b") as f:  # the file loses its last rows after it was opened
+        f.truncate(size - 10 * 4 * 8)
+    np.testing.assert_array_equal(t.rows([0, 5, 89]), A[[0, 5, 89]])  # rows still there read as before
+    with pytest.raises(DataValidationError, match="ends before the rows its header promises; the file is truncated"):
+        t.rows([95])
+    with pytest.raises(DataValidationError, match="could not read .* as .npy"):
+        open_table(p)
+
+
+def test_fortran_order_and_column_subsets_read_the_same(tmp_path):
+    # reference: numpy's own reader (np.load) of the same file
+    A = np.asfortranarray(np.random.default_rng(2).standard_normal((60, 5)).astype(np.float32))
+    np.save(tmp_path / "f.npy", A)
+    t = open_table(tmp_path / "f.npy", target="c2", chunk_rows=7)
+    ref = np.load(tmp_path / "f.npy").astype(np.float64)
+    np.testing.assert_array_equal(t.rows([59, 0, 13]), ref[[59, 0, 13]][:, [0, 1, 3, 4]])
+    np.testing.assert_array_equal(np.vstack([b for _, b in t.chunks()]), ref[:, [0, 1, 3, 4]])
+    np.testing.assert_array_equal(t.target(), ref[:, 2])

@@ -82,3 +82,33 @@ def test_bad_k_and_method():
         kneighbors(X, 0)
     with pytest.raises(ValueError, match="'method' parameter"):
         kneighbors(X, 2, method="fast")
+
+
+def test_knn_regression_on_the_approximate_index_agrees_with_exact():
+    # reference: exact brute-force search (scikit-learn NearestNeighbors) on the same data. The campaign cell's
+    # layout: queries = the training rows themselves (answered from the index's own graph), then new rows
+    # (searched in the index).
+    from manireg.curves.baselines import knn_regress
+    from manireg.data.manifolds import sphere
+    from manireg.geometry.neighbors import query_neighbors
+
+    rng = np.random.default_rng(5)
+    X = sphere(3000, d=2, ambient_dim=10, seed=5).points
+    y = np.sin(3 * X[:, 0]) + X[:, 1] + 0.1 * rng.standard_normal(3000)
+    tr, te = slice(0, 2500), slice(2500, 3000)
+    Q = np.vstack([X[tr], X[te]])
+    k = 12
+    exact = knn_regress(X[tr], y[tr], Q, k, method="exact")
+    approx = knn_regress(X[tr], y[tr], Q, k, method="approximate", random_state=0)
+    found = query_neighbors(X[tr], Q, k, method="approximate", self_rows=2500, recall_queries=500)
+    truth = NearestNeighbors(n_neighbors=k).fit(X[tr]).kneighbors(Q, return_distance=False)
+    assert found.method == "approximate" and found.recall_queries == 500
+    # the training rows list themselves first, as exact search does
+    np.testing.assert_array_equal(found.indices[:2500, 0], np.arange(2500))
+    share = np.mean([len(set(a) & set(b)) / k for a, b in zip(found.indices, truth)])
+    assert share >= 0.95 and abs(found.recall - share) < 0.03  # recall goal of the index (common practice)
+    # predictions: a missed neighbour is replaced by the next one out, so the means move by little; the test
+    # error of the two agrees within 5 % (our tolerance for a baseline's curve; its interval is wider)
+    err = lambda p: np.mean((p[2500:] - y[te]) ** 2)  # noqa: E731
+    assert abs(err(approx) - err(exact)) <= 0.05 * err(exact)
+    assert np.mean(np.isclose(approx, exact)) >= 0.9

@@ -99,7 +99,7 @@ def knn_k(n, d, s, c=DEFAULT_KNN_C) -> int:
     return int(min(max(math.ceil(c * n**a), 1), n))
 
 
-def knn_regress(X_train, y_train, X_query, k) -> np.ndarray:
+def knn_regress(X_train, y_train, X_query, k, *, method="auto", random_state=0) -> np.ndarray:
     """Uniform-weight k-nearest-neighbour regression (Euclidean distance).
 
     The prediction at a query point is the mean target of its ``k`` nearest training points; it equals
@@ -113,6 +113,13 @@ def knn_regress(X_train, y_train, X_query, k) -> np.ndarray:
     X_query : array of shape (m, D)
     k : int
         Neighbours, in ``[1, n]``.
+    method : {"auto", "exact", "approximate"}, default="auto"
+        Neighbour search (:func:`manireg.geometry.neighbors.query_neighbors`): exact up to
+        ``QUERY_APPROXIMATE_ABOVE`` training points; above, one nearest-neighbour descent graph over the
+        training points and the queries, each query's neighbours read from it. Queries that start with the
+        training points themselves (as in a campaign cell) are recognised and not added twice.
+    random_state : int, default=0
+        Seed of the approximate index.
 
     Returns
     -------
@@ -122,7 +129,7 @@ def knn_regress(X_train, y_train, X_query, k) -> np.ndarray:
     ----------
     .. [1] Györfi, Kohler, Krzyżak, Walk (2002), Ch. 6.
     """
-    from sklearn.neighbors import NearestNeighbors
+    from manireg.geometry.neighbors import query_neighbors
 
     owner = "knn_regress"
     X_train = check_points(X_train, name="X_train", owner=owner, min_samples=1)
@@ -133,8 +140,10 @@ def knn_regress(X_train, y_train, X_query, k) -> np.ndarray:
         raise ValueError(
             f"{owner}: X_query has {X_query.shape[1]} features but X_train has {X_train.shape[1]}; they must match."
         )
-    nn = NearestNeighbors(n_neighbors=k, algorithm="brute").fit(X_train)
-    idx = nn.kneighbors(X_query, return_distance=False)
+    n = X_train.shape[0]
+    self_rows = n if X_query.shape[0] >= n and np.array_equal(X_query[:n], X_train) else 0
+    idx = query_neighbors(X_train, X_query, k, method=method, random_state=random_state, self_rows=self_rows,
+                          owner=owner).indices
     return y_train[idx].mean(axis=1)
 
 

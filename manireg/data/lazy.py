@@ -17,8 +17,9 @@ A table pickles as its path and header (a few hundred bytes): a worker that rece
 and reads only the rows its task names.
 
 Memory: a pass holds one block (``chunk_rows`` x D x 8 bytes of float64 plus the stored block). NPY rows are
-read through a memory map opened for each call and closed at once, so pages of the file do not pile up
-in the process's resident memory.
+read with plain file reads (one per run of consecutive rows), not through a memory map: a mapped file
+counts every page the kernel maps around a touched row in the process's resident memory, up to the whole
+file after a scattered read.
 
 Zarr is optional (``pip install 'manireg[scale]'``); without it a ``.zarr`` path raises a message saying
 what to install.
@@ -156,8 +157,11 @@ class LazyTable:
         out[order] = block[inv]
         return out
 
-    def chunks(self, chunk_rows: int | None = None, start: int = 0, stop: int | None = None):
-        """Yield ``(first_row, block)`` over rows ``start:stop``, blocks of at most ``chunk_rows`` rows (float64)."""
+    def chunks(self, chunk_rows: int | None = None, start: int = 0, stop: int | None = None, dtype=np.float64):
+        """Yield ``(first_row, block)`` over rows ``start:stop``, blocks of at most ``chunk_rows`` rows.
+
+        ``dtype``: the type of the blocks (float64 by default; ``np.float32`` of a float32 file skips a copy
+        that is twice the stored block)."""
         step = int(chunk_rows or self.chunk_rows)
         stop = self.shape[0] if stop is None else min(int(stop), self.shape[0])
         if self.format == "parquet" and chunk_rows is None:
@@ -165,24 +169,21 @@ class LazyTable:
                 if b <= start or a >= stop:
                     continue
                 lo, hi = max(a, start), min(b, stop)
-                yield lo, self._read_range(lo, hi)
+                yield lo, self._read_range(lo, hi, dtype)
             return
         for a in range(start, stop, step):
-            yield a, self._read_range(a, min(a + step, stop))
+            yield a, self._read_range(a, min(a + step, stop), dtype)
 
     def target(self) -> np.ndarray | None:
         """The target column as float64 (n,), or None when the table has no target."""
         if self.target_name is None:
             return None
         if self.format == "npy":
-            # block by block: a strided read of one column would map every page of the file at once
+            # block by block: a strided read of one column would touch every page of the file at once
             out = np.empty(self.shape[0])
             for a in range(0, self.shape[0], self.chunk_rows):
-                mm = self._memmap()
-                try:
-                    out[a:a + self.chunk_rows] = mm[a:a + self.chunk_rows, self._target_column]
-                finally:
-                    del mm
+                b = min(a + self.chunk_rows, self.shape[0])
+                out[a:b] = self._npy_rows(a, b)[:, self._target_column]
             return out
         if self.format == "parquet":
             import pyarrow.parquet as pq
@@ -212,7 +213,11 @@ class LazyTable:
         lo = np.full(D, np.inf)
         hi = np.full(D, -np.inf)
         n_chunks = 0
-        for c, (a, block) in enumerate(self.chunks()):
+        # blocks in the stored precision (float32 stays float32: half the memory); the fingerprint hashes
+        # float64 bytes, converted a slice at a time
+        read_as = np.float32 if self.dtype == np.float32 else np.float64
+        piece = max(1, (8 * 2**20) // (8 * max(D, 1)))
+        for c, (a, block) in enumerate(self.chunks(dtype=read_as)):
             n_chunks += 1
             bad = ~np.isfinite(block)
             if bad.any():
@@ -226,7 +231,8 @@ class LazyTable:
                 continue
             if bad_total:
                 continue
-            h.update(np.ascontiguousarray(block).tobytes())
+            for i in range(0, len(block), piece):
+                h.update(np.ascontiguousarray(block[i:i + piece], dtype=np.float64).data.cast("B"))
             np.minimum(lo, block.min(axis=0), out=lo)
             np.maximum(hi, block.max(axis=0), out=hi)
         if bad_total:
@@ -260,6 +266,52 @@ class LazyTable:
     def _memmap(self):
         return np.load(self.path, mmap_mode="r", allow_pickle=False)
 
+    def _npy_layout(self):
+        """(offset of the data, stored dtype, stored columns, C order) from the NPY header, read once."""
+        lay = self.__dict__.get("_layout")
+        if lay is None:
+            with open(self.path, "rb") as f:
+                version = np.lib.format.read_magic(f)
+                read_header = (np.lib.format.read_array_header_1_0 if version == (1, 0)
+                               else np.lib.format.read_array_header_2_0)
+                shape, fortran, dtype = read_header(f)
+                lay = (f.tell(), np.dtype(dtype), int(shape[1]), not fortran and np.dtype(dtype).isnative)
+            self.__dict__["_layout"] = lay
+        return lay
+
+    def _npy_rows(self, a: int, b: int, rows=None) -> np.ndarray:
+        """Stored rows ``a:b`` (or the sorted distinct ``rows``) of an NPY file, all columns, in its dtype.
+
+        Read with plain file reads into this process's memory. A memory map would count every page the
+        kernel maps around each touched row (it maps neighbouring cached pages too) in the resident memory,
+        up to the whole file after a scattered read of candidate rows; a read holds only the bytes asked for.
+        """
+        offset, dt, ncol, c_order = self._npy_layout()
+        if not c_order:  # Fortran order or foreign byte order: through the memory map
+            mm = self._memmap()
+            try:
+                return np.array(mm[a:b] if rows is None else mm[rows])
+            finally:
+                del mm
+        row_bytes = dt.itemsize * ncol
+        if rows is None:
+            out = np.empty((b - a, ncol), dtype=dt)
+            with open(self.path, "rb", buffering=0) as f:
+                f.seek(offset + a * row_bytes)
+                _read_into(f, out)
+            return out
+        out = np.empty((rows.size, ncol), dtype=dt)
+        if rows.size == 0:
+            return out
+        breaks = np.flatnonzero(np.diff(rows) != 1) + 1
+        starts = np.concatenate([[0], breaks])
+        stops = np.concatenate([breaks, [rows.size]])
+        with open(self.path, "rb", buffering=0) as f:
+            for s0, s1 in zip(starts.tolist(), stops.tolist()):  # one read per run of consecutive rows
+                f.seek(offset + int(rows[s0]) * row_bytes)
+                _read_into(f, out[s0:s1])
+        return out
+
     def _zarr_group(self):
         zarr = _zarr()
         return zarr.open(self.path, mode="r")
@@ -268,15 +320,11 @@ class LazyTable:
         node = self._zarr_group()
         return node if self._zarr_kind == "array" else node["X"]
 
-    def _read_range(self, a: int, b: int) -> np.ndarray:
+    def _read_range(self, a: int, b: int, dtype=np.float64) -> np.ndarray:
         if self.format == "npy":
-            mm = self._memmap()
-            try:
-                block = mm[a:b]
-                block = block[:, self._columns] if self._columns is not None else block
-                return np.array(block, dtype=np.float64)
-            finally:
-                del mm
+            block = self._npy_rows(a, b)
+            block = block[:, self._columns] if self._columns is not None else block
+            return block.astype(dtype, copy=False)
         if self.format == "parquet":
             parts = []
             for g, (ga, gb) in enumerate(self._row_groups):
@@ -284,9 +332,9 @@ class LazyTable:
                     continue
                 t = self._read_group(g)
                 parts.append(t[max(a, ga) - ga:min(b, gb) - ga])
-            return np.vstack(parts) if parts else np.empty((0, self.shape[1]))
+            return (np.vstack(parts) if parts else np.empty((0, self.shape[1]))).astype(dtype, copy=False)
         z = self._zarr_X()
-        block = np.asarray(z[a:b], dtype=np.float64)
+        block = np.asarray(z[a:b], dtype=dtype)
         return block[:, self._columns] if self._columns is not None else block
 
     def _read_group(self, g: int) -> np.ndarray:
@@ -300,13 +348,9 @@ class LazyTable:
     def _read_sorted(self, uniq: np.ndarray) -> np.ndarray:
         """Rows ``uniq`` (sorted, distinct) in that order."""
         if self.format == "npy":
-            mm = self._memmap()
-            try:
-                block = mm[uniq]
-                block = block[:, self._columns] if self._columns is not None else block
-                return np.array(block, dtype=np.float64)
-            finally:
-                del mm
+            block = self._npy_rows(0, 0, rows=uniq)
+            block = block[:, self._columns] if self._columns is not None else block
+            return block.astype(np.float64, copy=False)
         if self.format == "parquet":
             out = np.empty((uniq.size, self.shape[1]))
             starts = np.array([a for a, _ in self._row_groups])
@@ -318,6 +362,18 @@ class LazyTable:
         z = self._zarr_X()
         block = np.asarray(z.get_orthogonal_selection((uniq, slice(None))), dtype=np.float64)
         return block[:, self._columns] if self._columns is not None else block
+
+
+def _read_into(f, out: np.ndarray) -> None:
+    """Fill the C-contiguous array ``out`` from the file's current position (raises on a short file)."""
+    view = memoryview(out.reshape(-1).view(np.uint8))
+    got = 0
+    while got < len(view):
+        r = f.readinto(view[got:])
+        if not r:
+            raise DataValidationError(f"'{f.name}' ends before the rows its header promises; the file is truncated. "
+                                      "Write it again.")
+        got += r
 
 
 def _numeric_column(values, p, name):

@@ -3,7 +3,7 @@ LocalCluster. Prints time, peak memory (psutil) and the load average beside each
 
     python tests/benchmarks/bench_scale.py geometry --rows 100000 300000 1000000 --dim 256 --dir DIR
     python tests/benchmarks/bench_scale.py ann --rows 100000 --dim 256 --dir DIR
-    python tests/benchmarks/bench_scale.py campaign --rows 100000 --dim 256 --sizes 1000 4000 16000 --dir DIR
+    python tests/benchmarks/bench_scale.py campaign --rows 300000 --dim 256 --sizes 10000 100000 250000 --repeats 1 --each-size --dir DIR
 
 Files are written once per (rows, dim) into DIR with manireg.data.write_synthetic (graph manifold, d = 4,
 float32). Each measurement runs in a fresh process so its peak resident memory is its own.
@@ -33,7 +33,8 @@ def ensure(d, rows, dim):
 
 
 class Peak:
-    """Peak resident memory of this process: psutil samples every 20 ms and the kernel's high-water mark."""
+    """Peak resident memory of this process and its children: psutil samples every 20 ms, and the kernel's
+    high-water mark of this process."""
 
     def __init__(self):
         import threading
@@ -41,12 +42,24 @@ class Peak:
         import psutil
 
         self.proc, self.peak, self.stop = psutil.Process(), 0, False
+        self.phase, self.phases = "start", {}
         self.t = threading.Thread(target=self._run, daemon=True)
         self.t.start()
 
+    def _rss(self):
+        total = self.proc.memory_info().rss
+        for c in self.proc.children(recursive=True):
+            try:
+                total += c.memory_info().rss
+            except Exception:  # a child that ended between the listing and the read
+                pass
+        return total
+
     def _run(self):
         while not self.stop:
-            self.peak = max(self.peak, self.proc.memory_info().rss)
+            rss = self._rss()
+            self.peak = max(self.peak, rss)
+            self.phases[self.phase] = max(self.phases.get(self.phase, 0), rss)
             time.sleep(0.02)
 
     def done(self):
@@ -61,11 +74,32 @@ def one_geometry(path, queries, landmarks):
     from manireg.data import open_table
     from manireg.geometry.ondisk import describe_geometry_on_disk
 
+    from manireg.geometry import neighbors
+
     peak = Peak()
+    peak.phase = "libraries"
+    table = open_table(path, -1)
+    scan, stream = table.scan, neighbors.stream_kneighbors
+
+    def phased(name, fn, after):
+        def run(*a, **kw):
+            peak.phase = name
+            out = fn(*a, **kw)
+            peak.phase = after
+            return out
+        return run
+
+    # the peak of each step: the check pass, the neighbour pass, the estimates, the charts
+    table.scan = phased("check", scan, "between")
+    neighbors.stream_kneighbors = phased("neighbours", stream, "estimates")
+    step = lambda name: setattr(peak, "phase", name) if name == "charts" else None  # noqa: E731
     t0 = time.perf_counter()
-    g = describe_geometry_on_disk(open_table(path, -1), n_queries=queries, n_landmarks=landmarks, seed=0)
+    g = describe_geometry_on_disk(table, n_queries=queries, n_landmarks=landmarks, seed=0, callback=step)
     sec = time.perf_counter() - t0
-    return {"seconds": sec, "peak_mb": peak.done() / 2**20, "mle": g.estimates["mle"], "twonn": g.estimates["twonn"],
+    total = peak.done()
+    return {"seconds": sec, "peak_mb": total / 2**20,
+            "phase_peak_mb": {k: round(v / 2**20) for k, v in peak.phases.items()},
+            "mle": g.estimates["mle"], "twonn": g.estimates["twonn"],
             "steps": g.seconds, "charts": g.atlas.n_charts, "reach": None if g.reach is None else g.reach.reach}
 
 
@@ -96,7 +130,11 @@ def one_ann(path, k, queries):
             "recall": recall, "peak_mb": peak.done() / 2**20}
 
 
-def one_campaign(path, sizes, repeats, workers):
+def one_campaign(path, sizes, repeats, workers, learners=("net", "knn")):
+    """One campaign on a LocalCluster of ``workers`` single-thread worker processes. The scheduler's memory is
+    read from its process, which for a LocalCluster is this client process (flagged in the result)."""
+    import threading
+
     import psutil
     from distributed import Client, LocalCluster
 
@@ -108,10 +146,9 @@ def one_campaign(path, sizes, repeats, workers):
     cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None)
     client = Client(cluster)
     worker_pids = list(client.run(os.getpid).values())
+    sched_pid = client.run_on_scheduler(os.getpid)
     peaks = {p: 0 for p in worker_pids}
-    sched = {"peak": 0}
-    import threading
-
+    mem = {"scheduler": 0, "client": 0}
     stop = []
 
     def watch():
@@ -122,15 +159,25 @@ def one_campaign(path, sizes, repeats, workers):
                     peaks[p] = max(peaks[p], psutil.Process(p).memory_info().rss)
                 except psutil.Error:
                     pass
-            sched["peak"] = max(sched["peak"], me.memory_info().rss)
+            try:
+                mem["scheduler"] = max(mem["scheduler"], psutil.Process(sched_pid).memory_info().rss)
+            except psutil.Error:
+                pass
+            mem["client"] = max(mem["client"], me.memory_info().rss)
             time.sleep(0.05)
 
     th = threading.Thread(target=watch, daemon=True)
     th.start()
     table = open_table(path, -1)
-    net = LearnerSpec("net", params={"max_steps": 300, "eval_every": 50, "patience_steps": 200, "min_steps": 50})
-    camp = Campaign(X=table, y=None, sizes=sizes, repeats=repeats, learners=[net, LearnerSpec("knn")], dimension=4.0,
-                    smoothness=1.0, seed=0, name="bench", store=store, test_size=2000)
+    specs = []
+    for name in learners:
+        if name == "net":
+            specs.append(LearnerSpec("net", params={"max_steps": 300, "eval_every": 50, "patience_steps": 200,
+                                                    "min_steps": 50}))
+        else:
+            specs.append(LearnerSpec(name))
+    camp = Campaign(X=table, y=None, sizes=sizes, repeats=repeats, learners=specs, dimension=4.0, smoothness=1.0,
+                    seed=0, name="bench", store=store, test_size=2000)
     t0 = time.perf_counter()
     res = camp.run(executor="dask", scheduler=client, progress=False)
     sec = time.perf_counter() - t0
@@ -138,12 +185,16 @@ def one_campaign(path, sizes, repeats, workers):
     th.join()
     rows = res.rows
     per = rows.groupby(["learner", "n"])["seconds"].mean().round(2).to_dict()
+    status = rows["status"].value_counts().to_dict()
     client.close()
     cluster.close()
     os.remove(store)
-    return {"cells": len(rows), "seconds": sec, "cell_seconds": {f"{l}@{n}": v for (l, n), v in per.items()},
-            "worker_peak_mb": [v / 2**20 for v in peaks.values()], "client_process_peak_mb": sched["peak"] / 2**20,
-            "note": "the scheduler runs in the client process of a LocalCluster; its peak includes the client"}
+    return {"cells": len(rows), "status": status, "seconds": sec,
+            "cell_seconds": {f"{l}@{n}": v for (l, n), v in per.items()},
+            "worker_peak_mb": [round(v / 2**20) for v in peaks.values()],
+            "scheduler_peak_mb": round(mem["scheduler"] / 2**20), "client_peak_mb": round(mem["client"] / 2**20),
+            # a LocalCluster runs its scheduler in this (the client's) process: then the two figures are one
+            "scheduler_in_client_process": sched_pid == os.getpid()}
 
 
 def _child(kind, kwargs):
@@ -168,6 +219,9 @@ def main():
     ap.add_argument("--sizes", type=int, nargs="+", default=[1000, 4000, 16000])
     ap.add_argument("--repeats", type=int, default=2)
     ap.add_argument("--workers", type=int, default=2)
+    ap.add_argument("--each-size", action="store_true",
+                    help="campaign: one cluster per size (beside a 1,000-row size), so each size's worker peak is its own")
+    ap.add_argument("--learners", nargs="+", default=["net", "knn"])
     a = ap.parse_args()
     for rows in a.rows:
         p = ensure(a.dir, rows, a.dim)
@@ -177,7 +231,15 @@ def main():
         elif a.what == "ann":
             r = _child("ann", {"path": p, "k": 20, "queries": 500})
         else:
-            r = _child("campaign", {"path": p, "sizes": a.sizes, "repeats": a.repeats, "workers": a.workers})
+            # a campaign needs two sizes: each size runs beside a 1,000-row one
+            for sizes in ([sorted({1000, n}) for n in a.sizes] if a.each_size else [a.sizes]):
+                load = os.getloadavg()[0]
+                r = _child("campaign", {"path": p, "sizes": sizes, "repeats": a.repeats, "workers": a.workers,
+                                        "learners": a.learners})
+                r.update(rows=rows, dim=a.dim, sizes=sizes, load_before=round(load, 2),
+                         load_after=round(os.getloadavg()[0], 2))
+                print(json.dumps(r), flush=True)
+            continue
         r.update(rows=rows, dim=a.dim, load_before=round(load, 2), load_after=round(os.getloadavg()[0], 2))
         print(json.dumps(r), flush=True)
 
