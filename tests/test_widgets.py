@@ -239,7 +239,7 @@ def test_geometry_panel_embedding_only_on_button(sample, monkeypatch):
     panel.seed.value = 3
     log = status_log(panel)
     panel.embed_button.click()
-    assert spy.calls[-1][1] == {"random_state": 3, "n_neighbors": 9}
+    assert spy.calls[-1][1] == {"random_state": 3, "n_neighbors": 9, "method": "umap"}  # the button says UMAP
     assert any("working: 2-D view" in v for v in log), log
     target_png = panel.embedding_image.value
     assert target_png[:4] == b"\x89PNG"

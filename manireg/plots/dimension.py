@@ -74,7 +74,8 @@ def plot_dimension_profile(profile_or_report, ax=None, *, true_dimension=None, x
         ax.xaxis.set_minor_formatter(NullFormatter())
     ax.set_xlabel("neighbour count k" if x == "scale" else "median neighbour distance")
     ax.set_ylabel("estimated dimension")
-    ax.set_title(f"Dimension profile ({profile.level:.0%} bands: {getattr(profile, 'interval_kind', 'bootstrap')}, n = {profile.n_samples})", fontsize=9)
+    ax.set_title(f"Dimension profile, n = {profile.n_samples}\n({profile.level:.0%} bands: "
+                 f"{getattr(profile, 'interval_kind', 'bootstrap')})", fontsize=9)
     ax.legend(loc="best")
     return fig
 

@@ -319,7 +319,8 @@ class GeometryPanel(Panel):
             self._redraw_embedding()
 
     def update_embedding(self, button=None):
-        """The slow step: seeded UMAP view (on the button only)."""
+        """The slow step: seeded UMAP view (on the button only; the command line's default view is the lighter
+        Laplacian eigenmap, the panel's button asks for UMAP by name)."""
         from manireg.geometry.embedding import embed_2d
 
         self.embed_button.disabled = True
@@ -327,7 +328,7 @@ class GeometryPanel(Panel):
                        "view of a session also compiles UMAP's code, which can take half a minute)")
         try:
             emb = self._call("the 2-D view", _quiet_call, embed_2d, self.X, random_state=int(self.seed.value),
-                             n_neighbors=int(self.umap_neighbors.value))
+                             n_neighbors=int(self.umap_neighbors.value), method="umap")
         finally:
             self.embed_button.disabled = False
         if emb is None:
