@@ -460,6 +460,17 @@ def _check_task_target(y, n_rows, name, owner, loss, n_outputs):
     return np.ascontiguousarray(arr)
 
 
+def _standardised32(A, mean, std, block_bytes=1 << 25):
+    """``((A - mean) / std).astype(float32)`` a block of rows at a time: the same numbers, bit for bit (the same
+    float64 operations per element, then the same rounding), without two float64 temporaries of A's size
+    (at 2.5e5 x 256 rows they were 1 GB of a campaign worker's peak)."""
+    out = np.empty(A.shape, dtype=np.float32)
+    step = max(1, block_bytes // (8 * max(1, A.shape[1])))
+    for i in range(0, A.shape[0], step):
+        out[i:i + step] = (A[i:i + step] - mean) / std
+    return out
+
+
 class _Prepared:
     """One replica's validated, standardised float32 data."""
 
@@ -506,9 +517,9 @@ class _Prepared:
             self.y_scale = ys if ys > 1e-12 * max(1.0, float(np.abs(y).max())) else 1.0
         else:
             self.y_mean, self.y_scale = 0.0, 1.0
-        self.X = torch.from_numpy(((X - self.x_mean) / self.x_std).astype(np.float32))
+        self.X = torch.from_numpy(_standardised32(X, self.x_mean, self.x_std))
         self.y = torch.from_numpy(((y - self.y_mean) / self.y_scale).astype(np.float32))
-        self.Xv = torch.from_numpy(((Xv - self.x_mean) / self.x_std).astype(np.float32))
+        self.Xv = torch.from_numpy(_standardised32(Xv, self.x_mean, self.x_std))
         self.yv = torch.from_numpy(yv.astype(np.float32))  # validation targets stay in target units
         self.y_raw = torch.from_numpy(y.astype(np.float32))
         self.batch = self.n if self.n <= config.full_batch_threshold else min(config.batch_size, self.n)
