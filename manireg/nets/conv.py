@@ -46,7 +46,8 @@ from manireg._threads import torch_threads
 from manireg._validation import DataValidationError, check_choice, check_int, check_points
 from manireg.nets.builders import ResidualConvNetwork, build_conv_network
 from manireg.nets.losses import probabilities, row_loss, stopping_loss
-from manireg.nets.training import ReplicaResult, ReplicaTask, TrainConfig, _check_task_target, lr_at_step
+from manireg.nets.training import (ReplicaResult, ReplicaTask, TrainConfig, _check_task_target, lr_at_step,
+                                   stop_reasons)
 from manireg.theory.sizing import ConvArchitectureSpec
 
 __all__ = ["BatchedConvTrainer", "conv_forward", "check_image_shape", "CONV_LOSSES", "CONV_MODES", "GROUPED_MAX_MACS"]
@@ -484,14 +485,7 @@ flops (torch's setting above).
                     g.best_step = torch.where(improved, torch.full_like(g.best_step, step), g.best_step)
                     for bp, p in zip(g.best, g.params):
                         bp.copy_(torch.where(improved.view(-1, *([1] * (p.ndim - 1))), p.detach(), bp))
-                if step >= cfg.max_steps:
-                    reasons = ["step_cap"] * len(g.active)
-                elif time.perf_counter() - t0 >= cfg.max_seconds:
-                    reasons = ["time_cap"] * len(g.active)
-                elif step >= cfg.min_steps:
-                    reasons = ["patience" if s else None for s in ((step - g.best_step) >= cfg.patience_steps).tolist()]
-                else:
-                    reasons = [None] * len(g.active)
+                reasons = stop_reasons(cfg, step, time.perf_counter() - t0, g.best_step, len(g.active))
                 if any(reasons):
                     for local, reason in enumerate(reasons):
                         if reason is not None:

@@ -180,6 +180,20 @@ TRAIN_RULES = {
 }
 
 
+def stop_reasons(config: TrainConfig, step: int, elapsed: float, best_step, n_active: int, min_steps=None) -> list:
+    """Why each of ``n_active`` replicas stops at ``step`` (None: it goes on): the step cap, the time cap, or
+    ``patience_steps`` without improvement once ``min_steps`` (default ``config.min_steps``) have passed.
+    ``best_step`` holds each active replica's best step (a tensor). One rule for every batched trainer."""
+    if step >= config.max_steps:
+        return ["step_cap"] * n_active
+    if elapsed >= config.max_seconds:
+        return ["time_cap"] * n_active
+    if step >= (config.min_steps if min_steps is None else min_steps):
+        stale = (step - best_step) >= config.patience_steps
+        return ["patience" if s else None for s in stale.tolist()]
+    return [None] * n_active
+
+
 def lr_at_step(config: TrainConfig, step: int) -> float:
     """Learning rate of ``config``'s schedule at optimiser step ``step`` (0-based)."""
     lr = config.learning_rate
@@ -1016,14 +1030,7 @@ class BatchedTrainer:
                     st.best_val = torch.where(improved, v, st.best_val)
                     st.best_step = torch.where(improved, torch.full_like(st.best_step, step), st.best_step)
                     st.best.copy_(torch.where(improved[:, None], st.flat, st.best))
-                reasons = [None] * len(st.active)
-                if step >= cfg.max_steps:
-                    reasons = ["step_cap"] * len(st.active)
-                elif time.perf_counter() - t0 >= cfg.max_seconds:
-                    reasons = ["time_cap"] * len(st.active)
-                elif step >= min_steps:
-                    stale = (step - st.best_step) >= cfg.patience_steps
-                    reasons = ["patience" if s else None for s in stale.tolist()]
+                reasons = stop_reasons(cfg, step, time.perf_counter() - t0, st.best_step, len(st.active), min_steps)
                 if any(reasons):
                     for local, reason in enumerate(reasons):
                         if reason is not None:
