@@ -55,7 +55,8 @@ def run(args) -> int:
     out = out_dir(args.out)
     meta = ResultStore(args.store).campaign_meta(result.name)
     if (result.spec or {}).get("task") == "classify":
-        from .curves import CLASSIFY_METRICS, classification_read_out, classification_reference
+        from ..curves.readout import CLASSIFY_METRICS, classification_reference
+        from .curves import classification_read_out
 
         metric_fits = classification_read_out(result, args.seed)
         settings = {"seed": args.seed, "spec": result.spec, "task": "classify", "campaign": result.name,

@@ -205,14 +205,17 @@ def _multiplier_of_name(name):
     return float(m.group(1)) if m else None
 
 
-def capacity_by_depth(rows, *, metric="test_mse", level=0.95) -> list:
+def capacity_by_depth(rows, *, metric="test_mse", level=0.95, swept_only=False) -> list:
     """The capacity read-out (:func:`manireg.curves.planning.capacity_readout`: paired over shared repeats) of
     each depth group of :func:`depth_groups`: ``[(label, CapacityReadout or str)]``, a string saying why a
-    group has none (no rule's width, a single width, or the read-out's own message)."""
+    group has none (no rule's width, a single width, or the read-out's own message). ``swept_only``: only the
+    groups with two or more nets (a width sweep)."""
     from manireg.curves.planning import capacity_readout
 
     out = []
     for label, learners in depth_groups(rows):
+        if swept_only and len(learners) < 2:
+            continue
         sub = rows[rows["learner"].astype(str).isin(learners)].copy()
         if "width_multiplier" not in sub.columns:  # rows without it: from the names ("net" is the rule's width)
             sub["width_multiplier"] = [_multiplier_of_name(v) for v in sub["learner"].astype(str)]

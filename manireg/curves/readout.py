@@ -210,21 +210,15 @@ def read_out(rows, *, dimension, dimension_interval=None, smoothness, ambient_di
                                 smoothness=s_one, ambient_dim=ambient_dim)
         except ValueError as exc:
             plan_note = f"No plan for target error {target:.4g}: {exc}"
+    from manireg.curves.capacity import capacity_by_depth
+
     return ReadOut(
         fits=fits, theory=theory, extrapolation=checks, plan=plan, plan_note=plan_note, floor=fl, floor_note=note,
         metric=metric, dimension=float(dimension), dimension_interval=None if dimension_interval is None else
         tuple(float(v) for v in dimension_interval), smoothness=smoothness, ambient_dim=ambient_dim,
         working_dimension=d_work, learner_kinds=kinds, warnings=caught_msgs, diagnoses=diagnoses, evidence=evidence,
-        capacity=_capacity(rows, metric, level),
+        capacity=capacity_by_depth(rows, metric=metric, level=level, swept_only=True),
     )
-
-
-def _capacity(rows, metric, level) -> list:
-    """The capacity read-out of every group of nets that ran two or more widths."""
-    from manireg.curves.capacity import capacity_by_depth, depth_groups
-
-    swept = {label for label, learners in depth_groups(rows) if len(learners) > 1}
-    return [(label, c) for label, c in capacity_by_depth(rows, metric=metric, level=level) if label in swept]
 
 
 @dataclass
