@@ -94,6 +94,7 @@ def test_one_fit_call_per_learner_and_size(tmp_path, monkeypatch):
     orig = tr.BatchedTrainer.fit
 
     def spy(self, tasks):
+        tasks = list(tasks)  # the learners hand over an iterator (rows read as the trainer asks for them)
         calls.append(len(tasks))
         return orig(self, tasks)
 

@@ -166,3 +166,16 @@ def test_fortran_order_and_column_subsets_read_the_same(tmp_path):
     np.testing.assert_array_equal(t.rows([59, 0, 13]), ref[[59, 0, 13]][:, [0, 1, 3, 4]])
     np.testing.assert_array_equal(np.vstack([b for _, b in t.chunks()]), ref[:, [0, 1, 3, 4]])
     np.testing.assert_array_equal(t.target(), ref[:, 2])
+
+
+@pytest.mark.parametrize("ext", FORMATS)
+def test_rows_over_many_read_blocks_with_repeats_equal_the_array(written, ext):
+    """rows() reads the distinct sorted rows a block at a time and casts each into place: a shuffled index with
+    repeats, spanning many blocks, gives the in-memory rows exactly (float64)."""
+    s = written[ext]
+    t = open_table(s.path, s.target_name, chunk_rows=16)
+    full = load_table(s.path, s.target_name)
+    idx = np.random.default_rng(0).integers(-700, 700, size=1500)
+    got = t.rows(idx)
+    assert got.dtype == np.float64
+    np.testing.assert_array_equal(got, full.X[idx])

@@ -359,3 +359,38 @@ def test_precision_choice():
     assert resolve_precision(TrainConfig(precision="bfloat16"), small, 80) == "bfloat16"
     with pytest.raises(ValueError, match="precision"):
         TrainConfig(precision="half")
+
+
+def test_fit_takes_an_iterator_and_frees_each_tasks_rows_once_prepared(monkeypatch):
+    """Memory at scale: tasks made one at a time by a generator are not kept (their float64 rows can go once
+    the trainer holds its float32 copy), the results equal those of a list, and the reported train/val MSE,
+    evaluated a block of rows at a time, is the plain mean of squared errors of the restored network."""
+    import weakref
+
+    import manireg.nets.training as tr
+
+    spec = size_network(300, 1, 1, ambient_dim=D, output_bound=2.0)
+    cfg = config(max_steps=60, min_steps=0, eval_every=20, full_batch_threshold=128, batch_size=32)
+    listed = BatchedTrainer(spec, cfg).fit(make_tasks([100, 300], seeds=[0, 1]))
+    refs = []
+
+    def made():
+        for t in make_tasks([100, 300], seeds=[0, 1]):
+            refs.append(weakref.ref(t.X_train))
+            yield t
+
+    monkeypatch.setattr(tr, "_EVAL_ROWS", 7)  # many blocks per evaluation
+    trainer = BatchedTrainer(spec, cfg)
+    streamed = trainer.fit(made())
+    assert len(refs) == 2 and all(r() is None for r in refs)  # nothing kept the float64 rows
+    for a, b in zip(listed, streamed):
+        assert (a.steps, a.best_step) == (b.steps, b.best_step)
+        np.testing.assert_array_equal(a.state["weights"][0], b.state["weights"][0])
+    # the MSE by blocks against numpy's mean of the squared errors of predict() (float32 network, so 1e-5)
+    for i, t in enumerate(make_tasks([100, 300], seeds=[0, 1])):
+        pred_tr, pred_va = trainer.predict(t.X_train, replica=i), trainer.predict(t.X_val, replica=i)
+        assert streamed[i].train_mse == pytest.approx(np.mean((pred_tr - t.y_train) ** 2), rel=1e-5)
+        if streamed[i].precision == "float32":  # the tracked validation MSE is then the float32 pass
+            assert streamed[i].val_mse == pytest.approx(np.mean((pred_va - t.y_val) ** 2), rel=1e-5)
+    with pytest.raises(ValueError, match="at least one ReplicaTask"):
+        BatchedTrainer(spec, cfg).fit(iter([]))

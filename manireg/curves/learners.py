@@ -188,6 +188,20 @@ class Learner:
         raise NotImplementedError
 
 
+def _cell_tasks(cells, data, labels=False):
+    """One :class:`~manireg.nets.training.ReplicaTask` per cell, made as the trainer asks for it: a trainer
+    that prepares tasks one at a time can then drop each cell's float64 rows before the next cell's are read.
+    ``labels``: targets as int64 class labels."""
+    from manireg.nets.training import ReplicaTask
+
+    for c in cells:
+        Xf, yf, Xv, yv = data.cell_split(c)
+        if labels:
+            yf, yv = yf.astype(np.int64), yv.astype(np.int64)
+        yield ReplicaTask(Xf, yf, Xv, yv, seed=int(c.seed))
+        del Xf, Xv
+
+
 def _mse(a, b):
     return float(np.mean((np.asarray(a, float) - np.asarray(b, float)) ** 2))
 
@@ -324,19 +338,15 @@ class NetLearner(Learner):
         return float(ob)
 
     def run(self, cells, data) -> list:
-        from manireg.nets.training import BatchedTrainer, ReplicaTask
+        from manireg.nets.training import BatchedTrainer
 
         ns = {c.n for c in cells}
         if len(ns) != 1:
             raise ValueError(f"NetLearner.run: cells of one call must share n; got sizes {sorted(ns)}.")
         arch = self.architecture(cells[0].n, data)
         train = self.train_config(cells[0].n, data, arch)
-        tasks = []
-        for c in cells:
-            Xf, yf, Xv, yv = data.cell_split(c)
-            tasks.append(ReplicaTask(Xf, yf, Xv, yv, seed=int(c.seed)))
         trainer = BatchedTrainer(arch, train)
-        results = trainer.fit(tasks)
+        results = trainer.fit(_cell_tasks(cells, data))
         out = []
         for i, r in enumerate(results):
             test, clean = _test_errors(trainer.predict(data.X_test, replica=i), data)
@@ -477,19 +487,15 @@ class NetClassifierLearner(NetLearner):
         return super().cell_cost(n, data) * max(1.0, 0.5 * data.n_classes)
 
     def run(self, cells, data) -> list:
-        from manireg.nets.training import BatchedTrainer, ReplicaTask
+        from manireg.nets.training import BatchedTrainer
 
         ns = {c.n for c in cells}
         if len(ns) != 1:
             raise ValueError(f"NetClassifierLearner.run: cells of one call must share n; got sizes {sorted(ns)}.")
         arch = self.architecture(cells[0].n, data)
         train = self.train_config(cells[0].n, data, arch)
-        tasks = []
-        for c in cells:
-            Xf, yf, Xv, yv = data.cell_split(c)
-            tasks.append(ReplicaTask(Xf, yf.astype(np.int64), Xv, yv.astype(np.int64), seed=int(c.seed)))
         trainer = BatchedTrainer(arch, train, loss="cross_entropy", n_outputs=data.n_classes)
-        results = trainer.fit(tasks)
+        results = trainer.fit(_cell_tasks(cells, data, labels=True))
         out = []
         for i, r in enumerate(results):
             out.append(_classification_row(

@@ -152,9 +152,16 @@ class LazyTable:
             return np.empty((0, self.shape[1]))
         order = np.argsort(idx, kind="stable")
         uniq, inv = np.unique(idx[order], return_inverse=True)
-        block = self._read_sorted(uniq)
         out = np.empty((idx.size, self.shape[1]))
-        out[order] = block[inv]
+        # The sorted distinct rows are read a block at a time (parquet: all at once, by row group) and each block
+        # is cast into its places in ``out``: the stored rows plus ``out`` are never held twice over (a
+        # 2.5e5 x 256 campaign cell read 1.2 GB of temporaries beside its 0.5 GB of rows before).
+        step = len(uniq) if self.format == "parquet" else self.chunk_rows
+        for a in range(0, len(uniq), step):
+            b = min(a + step, len(uniq))
+            block = self._read_sorted(uniq[a:b])
+            lo, hi = np.searchsorted(inv, [a, b])  # inv is sorted: the places of uniq[a:b] are contiguous
+            out[order[lo:hi]] = block[inv[lo:hi] - a]
         return out
 
     def chunks(self, chunk_rows: int | None = None, start: int = 0, stop: int | None = None, dtype=np.float64):
@@ -346,11 +353,10 @@ class LazyTable:
                                 for i in range(t.num_columns)])
 
     def _read_sorted(self, uniq: np.ndarray) -> np.ndarray:
-        """Rows ``uniq`` (sorted, distinct) in that order."""
+        """Rows ``uniq`` (sorted, distinct) in that order (NPY: in the stored dtype; the caller casts)."""
         if self.format == "npy":
             block = self._npy_rows(0, 0, rows=uniq)
-            block = block[:, self._columns] if self._columns is not None else block
-            return block.astype(np.float64, copy=False)
+            return block[:, self._columns] if self._columns is not None else block  # cast where it is placed
         if self.format == "parquet":
             out = np.empty((uniq.size, self.shape[1]))
             starts = np.array([a for a, _ in self._row_groups])

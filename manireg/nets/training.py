@@ -540,8 +540,15 @@ class _Prepared:
         self.full = self.n <= config.full_batch_threshold
 
 
+#: Rows per block when the trainer evaluates a restored network on a replica's training or validation rows.
+_EVAL_ROWS = 8192
+
+
 def _pad_stack(tensors, length):
-    """Stack along a new first axis, zero-padding axis 0 of each tensor to ``length``."""
+    """Stack along a new first axis, zero-padding axis 0 of each tensor to ``length`` (one tensor of that
+    length: a view of it, no copy)."""
+    if len(tensors) == 1 and tensors[0].shape[0] == length:
+        return tensors[0].unsqueeze(0)
     shape = (len(tensors), length) + tuple(tensors[0].shape[1:])
     out = torch.zeros(shape, dtype=torch.float32)
     for i, t in enumerate(tensors):
@@ -827,16 +834,19 @@ class BatchedTrainer:
         list of ReplicaResult
         """
         owner = "BatchedTrainer.fit"
-        tasks = list(tasks)
-        if not tasks:
+        # Prepared one at a time and not kept: given an iterator, each task's float64 rows can be freed once
+        # its standardised float32 copy exists (a 2.5e5-row campaign cell held both through training).
+        prepared = []
+        for i, t in enumerate(tasks):
+            prepared.append(_Prepared(t, i, self.config, self.spec.input_dim, owner, self.loss, self.n_outputs))
+            del t
+        if not prepared:
             raise ValueError(f"the 'tasks' parameter of {owner} must hold at least one ReplicaTask; got none.")
-        prepared = [_Prepared(t, i, self.config, self.spec.input_dim, owner, self.loss, self.n_outputs)
-                    for i, t in enumerate(tasks)]
         groups = {}
         for i, p in enumerate(prepared):
             key = ("full", p.n) if p.full else ("mini", p.batch)
             groups.setdefault(key, []).append(i)
-        results = [None] * len(tasks)
+        results = [None] * len(prepared)
         with torch.no_grad():
             for key in sorted(groups, key=str):
                 idx = groups[key]
@@ -954,6 +964,8 @@ class BatchedTrainer:
             ysc=torch.tensor([p.y_scale for p in reps], dtype=torch.float32)[:, None],
             **stream,
         )
+        for p in reps:  # the stack holds the rows now (a view of them for a lone replica)
+            p.X = p.Xv = None
         results = [None] * R
         prune_step = int(cfg.prune_at * cfg.max_steps) if cfg.prune else -1
         min_steps = max(cfg.min_steps, prune_step + cfg.eval_every) if cfg.prune else cfg.min_steps
@@ -977,19 +989,28 @@ class BatchedTrainer:
             Wb = [w[0] for w in best[:L]]
             bb = [b[0, 0] for b in best[L:]]
             def restored_mse(X, y):
-                """MSE (target units, clipped) of the restored float32 network on one replica's rows."""
-                z = _forward([w[None] for w in Wb], [b[None, None] for b in bb], X[None])[0]
-                if loss != "mse":
-                    return float(row_loss(loss, z, y).mean())
-                pred = p.y_mean + p.y_scale * z
-                if clip:
-                    pred = pred.clamp(-bound, bound)
-                return float(((pred - y) ** 2).mean())
+                """MSE (target units, clipped) of the restored float32 network on one replica's rows, a block
+                of rows at a time (a forward pass over 2e5 rows of width 512 is 0.4 GB per layer), the
+                blocks' sums added in float64."""
+                total = 0.0
+                for a in range(0, len(X), _EVAL_ROWS):
+                    z = _forward([w[None] for w in Wb], [b[None, None] for b in bb], X[None, a:a + _EVAL_ROWS])[0]
+                    yb = y[a:a + _EVAL_ROWS]
+                    if loss != "mse":
+                        total += float(row_loss(loss, z, yb).double().sum())
+                        continue
+                    pred = p.y_mean + p.y_scale * z
+                    if clip:
+                        pred = pred.clamp(-bound, bound)
+                    total += float(((pred - yb) ** 2).double().sum())
+                return total / len(X)
 
-            train_mse = restored_mse(p.X, p.y_raw)
+            # the replica's rows as stacked (its own copies were dropped once the stack held them)
+            train_mse = restored_mse(st.X[local, :p.n], p.y_raw)
             # in mixed precision the tracked validation MSE came from bfloat16 passes: report the restored
             # float32 network's own, like train_mse
-            val = float(st.best_val[local]) if low is None and loss == "mse" else restored_mse(p.Xv, p.yv)
+            val = (float(st.best_val[local]) if low is None and loss == "mse"
+                   else restored_mse(st.Xv[local, :p.n_val], p.yv))
             state = {
                 "spec": spec,
                 "weights": [w.numpy() for w in Wb],
