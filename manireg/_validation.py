@@ -32,8 +32,8 @@ def _locate_nonfinite(arr: np.ndarray, limit: int = 5) -> str:
     return f"{len(bad)} non-finite value(s) (NaN or inf) at index {where}{more}"
 
 
-def _as_float(X, name: str, prefix: str, fix: str) -> np.ndarray:
-    """``X`` as float64, refusing what a silent cast would get wrong (sparse, complex, non-numeric)."""
+def _as_float(X, name: str, prefix: str, fix: str, to=np.float64) -> np.ndarray:
+    """``X`` as float64 (or ``to``), refusing what a silent cast would get wrong (sparse, complex, non-numeric)."""
     if hasattr(X, "tocsr") or hasattr(X, "todense"):
         raise DataValidationError(
             f"{prefix}{name} is a sparse matrix ({type(X).__name__}); manireg works on dense arrays. "
@@ -49,19 +49,19 @@ def _as_float(X, name: str, prefix: str, fix: str) -> np.ndarray:
             f"Pass real features, e.g. np.column_stack([{name}.real, {name}.imag])."
         )
     try:
-        return np.asarray(X, dtype=np.float64)
+        return np.asarray(X, dtype=to)
     except (TypeError, ValueError) as exc:
         raise DataValidationError(f"{prefix}{name} must be numeric; could not convert it to float ({exc}). {fix}") from None
 
 
-def check_points(X, *, name: str = "X", min_samples: int = 2, owner: str | None = None) -> np.ndarray:
-    """Return ``X`` as a C-contiguous float64 array of shape (n_samples, n_features).
+def check_points(X, *, name: str = "X", min_samples: int = 2, owner: str | None = None, dtype=np.float64) -> np.ndarray:
+    """Return ``X`` as a C-contiguous float64 (or ``dtype``) array of shape (n_samples, n_features).
 
     Raises :class:`DataValidationError` for non-numeric data, the wrong number of dimensions, NaN or
     inf (with how many and where), or fewer than ``min_samples`` rows.
     """
     prefix = f"{owner}: " if owner else ""
-    arr = _as_float(X, name, prefix, "Drop or encode non-numeric columns first.")
+    arr = _as_float(X, name, prefix, "Drop or encode non-numeric columns first.", dtype)
     if arr.ndim == 1:
         raise DataValidationError(
             f"{prefix}{name} must be 2-D (n_samples, n_features); got a 1-D array of length {arr.shape[0]}. "

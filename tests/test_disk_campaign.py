@@ -64,10 +64,11 @@ def test_dask_worker_that_dies_mid_cell_is_retried_and_rows_equal_in_memory(disk
 
     flag = tmp_path / "die"
     flag.write_text("")
-    n_fit = 160 - round(0.2 * 160)
-    table = dying(open_table(disk.path, disk.target_name), flag, n_fit, once=True)
+    table = dying(open_table(disk.path, disk.target_name), flag, -1, once=True)
     store = tmp_path / "b.sqlite"
-    b = _campaign(table, None, store, learners=("knn",)).run(executor="dask", n_jobs=2, progress=False)
+    camp = _campaign(table, None, store, learners=("knn",))
+    table.die_at = 160 + len(camp.data.test_idx)  # a kNN cell reads its n rows and the test rows in one go
+    b = camp.run(executor="dask", n_jobs=2, progress=False)
     assert not flag.exists()  # a worker did die in a size-160 cell
     rows = ResultStore(store).rows("disk")
     assert len(rows) == 6 and rows["key"].is_unique and set(rows["status"]) == {"ok"}
@@ -107,8 +108,9 @@ def test_worker_that_dies_mid_cell_leaves_the_cell_for_the_resume(disk, tmp_path
     flag.write_text("")
     table = open_table(disk.path, disk.target_name)
     store = tmp_path / "s.sqlite"
-    n_fit = 160 - round(0.2 * 160)  # the fitted rows of a size-160 cell
-    camp = _campaign(dying(table, flag, n_fit), None, store, learners=("knn",))
+    doomed = dying(table, flag, -1)
+    camp = _campaign(doomed, None, store, learners=("knn",))
+    doomed.die_at = 160 + len(camp.data.test_idx)  # a size-160 kNN cell reads its rows and the test rows at once
     with pytest.raises(WorkerLost, match="Run the same campaign again to resume"):
         camp.run(executor="processes", n_jobs=2, progress=False)
     kept = ResultStore(store).rows("disk")

@@ -112,3 +112,31 @@ def test_knn_regression_on_the_approximate_index_agrees_with_exact():
     err = lambda p: np.mean((p[2500:] - y[te]) ** 2)  # noqa: E731
     assert abs(err(approx) - err(exact)) <= 0.05 * err(exact)
     assert np.mean(np.isclose(approx, exact)) >= 0.9
+
+
+def test_float32_rows_that_begin_with_the_reference_are_the_search_stack(monkeypatch):
+    """A large campaign kNN cell reads its rows once, in float32, the fitted rows first: the approximate search
+    then builds its graph on that very array (no float64 copy, no second float32 stack), and the predictions
+    equal the float64 path's up to the rare query searched exactly (sklearn's brute force in either type)."""
+    import pynndescent
+
+    from manireg.curves.baselines import knn_regress
+    from manireg.data.manifolds import sphere
+
+    rng = np.random.default_rng(6)
+    X = sphere(2000, d=2, ambient_dim=10, seed=6).points
+    y = np.sin(3 * X[:, 0]) + 0.1 * rng.standard_normal(2000)
+    Q32 = X.astype(np.float32)
+    seen = []
+    real = pynndescent.NNDescent.__init__
+
+    def spy(self, data, *a, **kw):
+        seen.append(data)
+        return real(self, data, *a, **kw)
+
+    monkeypatch.setattr(pynndescent.NNDescent, "__init__", spy)
+    p32 = knn_regress(Q32[:1500], y[:1500], Q32, 10, method="approximate")
+    p64 = knn_regress(X[:1500], y[:1500], X, 10, method="approximate")
+    assert seen[0] is Q32 and seen[1] is not X
+    np.testing.assert_array_equal(seen[0], seen[1])  # the same float32 values either way
+    assert np.mean(p32 == p64) >= 0.99

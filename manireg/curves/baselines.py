@@ -132,19 +132,30 @@ def knn_regress(X_train, y_train, X_query, k, *, method="auto", random_state=0) 
     from manireg.geometry.neighbors import query_neighbors
 
     owner = "knn_regress"
-    X_train = check_points(X_train, name="X_train", owner=owner, min_samples=1)
+    # float32 rows stay float32 (a campaign's large kNN cells read them so: half the memory, and the
+    # approximate search works in float32 anyway); anything else is float64
+    work = np.float32 if getattr(X_train, "dtype", None) == np.float32 and getattr(X_query, "dtype", None) == np.float32 \
+        else np.float64
+    X_train = check_points(X_train, name="X_train", owner=owner, min_samples=1, dtype=work)
     y_train = check_target(y_train, X_train.shape[0], name="y_train", owner=owner)
-    X_query = check_points(X_query, name="X_query", owner=owner, min_samples=1)
+    X_query = check_points(X_query, name="X_query", owner=owner, min_samples=1, dtype=work)
     k = check_int(k, "k", owner=owner, low=1, high=X_train.shape[0])
     if X_query.shape[1] != X_train.shape[1]:
         raise ValueError(
             f"{owner}: X_query has {X_query.shape[1]} features but X_train has {X_train.shape[1]}; they must match."
         )
     n = X_train.shape[0]
-    self_rows = n if X_query.shape[0] >= n and np.array_equal(X_query[:n], X_train) else 0
+    same = X_query.shape[0] >= n and (_leading_view(X_train, X_query) or np.array_equal(X_query[:n], X_train))
+    self_rows = n if same else 0
     idx = query_neighbors(X_train, X_query, k, method=method, random_state=random_state, self_rows=self_rows,
                           owner=owner).indices
     return y_train[idx].mean(axis=1)
+
+
+def _leading_view(A, B) -> bool:
+    """True when A is literally B's first rows (the same memory, so equal without comparing)."""
+    return (A.dtype == B.dtype and A.shape[1:] == B.shape[1:] and A.strides == B.strides
+            and A.__array_interface__["data"][0] == B.__array_interface__["data"][0])
 
 
 def _sq_dists(A, B):

@@ -404,7 +404,12 @@ class KNNLearner(Learner):
             k = self.k_for(len(fit), data)
             # the fitted, validation and test rows in one array read once; the fitted rows are a view of it
             # (at 2.5e5 rows a separate copy of each part was another 0.5 GB of the worker's memory)
-            Q = data.take(np.concatenate([fit, val, data.test_idx]))
+            # above the exact search's limit the approximate search works in float32: read the rows so (half
+            # the memory; the float32 rows are the search's own stack, not copied again)
+            from manireg.geometry.neighbors import QUERY_APPROXIMATE_ABOVE
+
+            dtype = np.float32 if len(fit) > QUERY_APPROXIMATE_ABOVE else np.float64
+            Q = data.take(np.concatenate([fit, val, data.test_idx]), dtype=dtype)
             a, b = len(fit), len(fit) + len(val)
             pred = baselines.knn_regress(Q[:a], yf, Q, k)
             out.append(_baseline_row(pred[:a], yf, pred[a:b], yv, pred[b:], data, time.perf_counter() - t0))

@@ -244,9 +244,11 @@ class CampaignData:
         """True when ``X`` is a table on disk read by rows."""
         return hasattr(self.X, "rows") and hasattr(self.X, "chunks")
 
-    def take(self, rows):
-        """Rows of X by index, as float64 (read from the file when X is on disk)."""
-        return self.X.rows(rows) if self.on_disk else self.X[rows]
+    def take(self, rows, dtype=np.float64):
+        """Rows of X by index, as float64 or ``dtype`` (read from the file when X is on disk)."""
+        if not self.on_disk:
+            return self.X[rows].astype(dtype, copy=False)
+        return self.X.rows(rows) if np.dtype(dtype) == np.float64 else self.X.rows(rows, dtype=dtype)
 
     def __getstate__(self):
         state = dict(self.__dict__)

@@ -465,8 +465,12 @@ def query_neighbors(reference, queries, k: int, *, method: str = "auto", random_
     extra = queries[self_rows:]
     share = n / (n + extra.shape[0])
     width = int(min(n + extra.shape[0] - 1, np.ceil((k + 3 * np.sqrt(k) + 2) / share)))
-    U = np.empty((n + extra.shape[0], reference.shape[1]), dtype=np.float32)  # cast in place: no float64 stack
-    U[:n], U[n:] = reference, extra
+    if self_rows == n and queries.dtype == np.float32 and queries.flags.c_contiguous and \
+            reference.__array_interface__["data"][0] == queries.__array_interface__["data"][0]:
+        U = queries  # float32 queries that begin with the reference rows themselves: already the stack
+    else:
+        U = np.empty((n + extra.shape[0], reference.shape[1]), dtype=np.float32)  # cast in place: no float64 stack
+        U[:n], U[n:] = reference, extra
     graph = NNDescent(U, n_neighbors=max(width, 10), random_state=random_state, n_jobs=1,
                       low_memory=True).neighbor_graph[0]
     del U

@@ -4,6 +4,11 @@ LocalCluster. Prints time, peak memory (psutil) and the load average beside each
     python tests/benchmarks/bench_scale.py geometry --rows 100000 300000 1000000 --dim 256 --dir DIR
     python tests/benchmarks/bench_scale.py ann --rows 100000 --dim 256 --dir DIR
     python tests/benchmarks/bench_scale.py campaign --rows 300000 --dim 256 --sizes 10000 100000 250000 --repeats 1 --each-size --dir DIR
+    python tests/benchmarks/bench_scale.py cli --rows 300000 --dim 256 --sizes 1000 10000 100000 250000 --repeats 2 --learners net --dir DIR
+
+``cli`` starts a dask scheduler and ``--workers`` single-thread workers as processes of their own (the
+``dask scheduler`` / ``dask worker`` commands), runs ``manireg curves FILE --on-disk --scheduler ADDRESS`` as a
+user would, and reports the peak resident memory of the command, the scheduler and each worker.
 
 Files are written once per (rows, dim) into DIR with manireg.data.write_synthetic (graph manifold, d = 4,
 float32). Each measurement runs in a fresh process so its peak resident memory is its own.
@@ -197,6 +202,68 @@ def one_campaign(path, sizes, repeats, workers, learners=("net", "knn")):
             "scheduler_in_client_process": sched_pid == os.getpid()}
 
 
+def cli_campaign(path, sizes, repeats, workers, learners, port=8786):
+    """``manireg curves --on-disk --scheduler`` against a scheduler and workers started as their own processes
+    (psutil watches each every 50 ms; a worker's memory includes the processes its nanny starts)."""
+    import shutil
+    import tempfile
+    import threading
+
+    import psutil
+
+    dask = shutil.which("dask") or os.path.join(os.path.dirname(sys.executable), "dask")
+    address = f"tcp://127.0.0.1:{port}"
+    work = tempfile.mkdtemp(prefix="bench-cli-")
+    logs = open(os.path.join(work, "cluster.log"), "w")
+    sched = subprocess.Popen([dask, "scheduler", "--host", "127.0.0.1", "--port", str(port), "--no-dashboard"],
+                             stdout=logs, stderr=logs)
+    time.sleep(3)
+    wk = subprocess.Popen([dask, "worker", address, "--nthreads", "1", "--nworkers", str(workers),
+                           "--memory-limit", "0", "--no-dashboard", "--local-directory", work], stdout=logs, stderr=logs)
+    time.sleep(8)
+    peaks, stop = {}, []
+
+    def watch(procs):
+        while not stop:
+            for name, pr in procs.items():
+                try:
+                    ps = psutil.Process(pr.pid)
+                    kids = ps.children(recursive=True)
+                    if name == "workers":  # one entry per worker process (children of the nanny processes)
+                        for c in kids:
+                            if "nanny" not in " ".join(c.cmdline()):
+                                peaks[f"worker {c.pid}"] = max(peaks.get(f"worker {c.pid}", 0), c.memory_info().rss)
+                    else:
+                        rss = ps.memory_info().rss + sum(c.memory_info().rss for c in kids)
+                        peaks[name] = max(peaks.get(name, 0), rss)
+                except psutil.Error:
+                    pass
+            time.sleep(0.05)
+
+    store = os.path.join(work, "campaign.sqlite")
+    cmd = [os.path.join(os.path.dirname(sys.executable), "manireg"), "curves", path, "--target", "c%d" % (
+        int(__import__("numpy").load(path, mmap_mode="r").shape[1]) - 1), "--on-disk", "--scheduler", address,
+        "--sizes", *map(str, sizes), "--repeats", str(repeats), "--learners", *learners, "--no-geometry",
+        "--dimension", "4", "--smoothness", "1", "--store", store, "--out", os.path.join(work, "out")]
+    t0 = time.perf_counter()
+    run = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True)
+    th = threading.Thread(target=watch, args=({"scheduler": sched, "workers": wk, "command": run},), daemon=True)
+    th.start()
+    out, _ = run.communicate()
+    sec = time.perf_counter() - t0
+    stop.append(1)
+    th.join()
+    wk.terminate()
+    sched.terminate()
+    wk.wait(30)
+    sched.wait(30)
+    logs.close()
+    shutil.rmtree(work, ignore_errors=True)
+    return {"command": " ".join(os.path.basename(c) if c.startswith(os.sep) else c for c in cmd), "exit": run.returncode,
+            "seconds": round(sec, 1), "peak_mb": {k: round(v / 2**20) for k, v in sorted(peaks.items())},
+            "output_tail": out.splitlines()[-25:]}
+
+
 def _child(kind, kwargs):
     """Run one measurement in a fresh process; return its JSON."""
     code = f"import json,sys; sys.path.insert(0, {os.path.dirname(__file__)!r}); import bench_scale as b; " \
@@ -210,7 +277,7 @@ def _child(kind, kwargs):
 
 def main():
     ap = argparse.ArgumentParser()
-    ap.add_argument("what", choices=["geometry", "ann", "campaign"])
+    ap.add_argument("what", choices=["geometry", "ann", "campaign", "cli"])
     ap.add_argument("--rows", type=int, nargs="+", default=[100_000])
     ap.add_argument("--dim", type=int, default=256)
     ap.add_argument("--dir", default=os.environ.get("TMPDIR", "/tmp"))
@@ -230,6 +297,8 @@ def main():
             r = _child("geometry", {"path": p, "queries": a.queries, "landmarks": a.landmarks})
         elif a.what == "ann":
             r = _child("ann", {"path": p, "k": 20, "queries": 500})
+        elif a.what == "cli":
+            r = cli_campaign(p, a.sizes, a.repeats, a.workers, a.learners)
         else:
             # a campaign needs two sizes: each size runs beside a 1,000-row one
             for sizes in ([sorted({1000, n}) for n in a.sizes] if a.each_size else [a.sizes]):
