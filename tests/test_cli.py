@@ -223,8 +223,26 @@ def test_interrupt_then_resume(sphere_csv, tmp_path):
 def test_sizes_beyond_the_data_fail_before_any_file(sphere_csv, tmp_path, capsys):
     out = tmp_path / "o"
     assert main(["curves", str(sphere_csv), "--target", "y", "--sizes", "100", "5000", "--quiet", "--out", str(out)]) == 2
-    assert "only 560 rows are left for training" in capsys.readouterr().err
+    err = capsys.readouterr().err
+    assert "only 560 rows are left for training" in err and "--test-size" in err
     assert not out.exists()  # no folder, no empty store
+    # the fix it names: a smaller test set (rows or a share); a bad value is refused with both forms
+    for bad in ("0", "-3", "12.5"):
+        assert main(["curves", str(sphere_csv), "--target", "y", "--sizes", "100", "600", "--test-size", bad, "--quiet",
+                     "--out", str(out)]) == 2
+        assert "--test-size" in capsys.readouterr().err
+    assert not out.exists()
+
+
+def test_test_size_sets_the_fixed_test_set(sphere_csv, tmp_path):
+    from manireg.curves import ResultStore
+
+    for value, rows in (("50", 50), ("0.1", 70)):  # 700 rows in the table
+        store = tmp_path / f"s{value}.sqlite"
+        assert main(["curves", str(sphere_csv), "--target", "y", "--sizes", "100", "200", "--repeats", "1", "--learners",
+                     "knn", "--no-geometry", "--dimension", "2", "--smoothness", "1", "--test-size", value, "--quiet",
+                     "--store", str(store), "--out", str(tmp_path / value)]) == 0
+        assert ResultStore(store).campaign_meta("campaign")["test_size"] == rows
 
 
 def test_id_column_is_a_one_flag_fix(sphere_csv, tmp_path, capsys):

@@ -27,6 +27,8 @@ def add_parser(sub):
     p.add_argument("--dimension", type=float, metavar="d", help="intrinsic dimension d (default: the geometry read-out's consensus)")
     p.add_argument("--sizes", type=int, nargs="+", metavar="N", help="training sizes (default: a geometric grid)")
     p.add_argument("--repeats", type=int, default=5, metavar="R", help="repeats per size (default: %(default)s)")
+    p.add_argument("--test-size", type=float, metavar="T",
+                   help="the fixed test set: a number of rows (e.g. 2000) or a share of the rows below 1 (default: 0.2)")
     p.add_argument("--task", default="regress", choices=["regress", "classify"],
                    help="regress a numeric target, or classify labels (integers or strings) (default: %(default)s)")
     p.add_argument("--learners", nargs="+", default=None, choices=list(REGRESS + CLASSIFY),
@@ -60,6 +62,20 @@ def add_parser(sub):
     add_run_options(p, "manireg-out/curves")
     p.set_defaults(func=run)
     return p
+
+
+def test_split(value) -> dict:
+    """``--test-size``: a count of rows (>= 1) or a share of the rows (below 1), as the campaign's keyword."""
+    if value is None:
+        return {}
+    if not value > 0 or value != value:
+        raise UsageError(f"--test-size must be a number of rows (e.g. 2000) or a share of the rows below 1 (e.g. 0.2); "
+                         f"got {value}.")
+    if value < 1:
+        return {"test_fraction": float(value)}
+    if value != int(value):
+        raise UsageError(f"--test-size {value}: a number of rows must be whole (e.g. {int(value)}), or a share below 1.")
+    return {"test_size": int(value)}
 
 
 def learner_specs(names, width_multipliers=None, precision="auto", sizing=None, image_shape=None):
@@ -151,7 +167,8 @@ def run(args) -> int:
     else:
         table = load_labelled(args) if classify else load(args, target_required=True)
         X, y, D = table.X, table.y, table.X.shape[1]
-    test_size, sizes = check_sizes(args.sizes, table.n_samples, owner="--sizes")  # before any work or file
+    split = test_split(args.test_size)
+    test_size, sizes = check_sizes(args.sizes, table.n_samples, owner="--sizes", **split)  # before any work or file
     if classify:
         check_classes(table, sizes[0])
     out = out_dir(args.out)
@@ -187,7 +204,7 @@ def run(args) -> int:
             s = estimated_smoothness(X, y, args.seed)
     name = args.campaign or "campaign"
     learners = learner_specs(args.learners, args.width_multipliers, args.precision, sizing, args.image_shape)
-    campaign = Campaign(X=X, y=y, sizes=args.sizes, repeats=args.repeats, learners=learners,
+    campaign = Campaign(X=X, y=y, sizes=args.sizes, repeats=args.repeats, learners=learners, **split,
                         dimension=d, smoothness=s, seed=args.seed, name=name, store=store, task=args.task,
                         dimension_source="given" if args.dimension is not None else "geometry read-out (rounded consensus)",
                         dimension_interval=None if geo is None or args.dimension is not None else dimension_range(geo.dimension))

@@ -371,7 +371,8 @@ def check_sizes(sizes, n_rows: int, *, test_fraction: float = 0.2, test_size=Non
         raise ValueError(
             f"the 'sizes' parameter of {owner} has size {out[-1]} but only {n_pool} rows are left for "
             f"training after the test split ({N} rows - {test_size} test rows). Use sizes <= {n_pool}, "
-            "pass more data, or lower test_fraction/test_size."
+            + ("pass more data, or a smaller --test-size." if owner.startswith("--")
+               else "pass more data, or lower test_fraction/test_size.")
         )
     return test_size, out
 

@@ -231,7 +231,7 @@ def cli_campaign(path, sizes, repeats, workers, learners, port=8786):
                     kids = ps.children(recursive=True)
                     if name == "workers":  # one entry per worker process (children of the nanny processes)
                         for c in kids:
-                            if "nanny" not in " ".join(c.cmdline()):
+                            if "resource_tracker" not in " ".join(c.cmdline()):  # not the semaphore tracker
                                 peaks[f"worker {c.pid}"] = max(peaks.get(f"worker {c.pid}", 0), c.memory_info().rss)
                     else:
                         rss = ps.memory_info().rss + sum(c.memory_info().rss for c in kids)
