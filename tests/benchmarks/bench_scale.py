@@ -244,7 +244,7 @@ def cli_campaign(path, sizes, repeats, workers, learners, port=8786):
     cmd = [os.path.join(os.path.dirname(sys.executable), "manireg"), "curves", path, "--target", "c%d" % (
         int(__import__("numpy").load(path, mmap_mode="r").shape[1]) - 1), "--on-disk", "--scheduler", address,
         "--sizes", *map(str, sizes), "--repeats", str(repeats), "--learners", *learners, "--no-geometry",
-        "--dimension", "4", "--smoothness", "1", "--store", store, "--out", os.path.join(work, "out")]
+        "--dimension", "4", "--smoothness", "1", "--test-size", "2000", "--store", store, "--out", os.path.join(work, "out")]
     t0 = time.perf_counter()
     run = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True)
     th = threading.Thread(target=watch, args=({"scheduler": sched, "workers": wk, "command": run},), daemon=True)
