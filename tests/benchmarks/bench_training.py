@@ -9,6 +9,7 @@ Run as a script (pytest does not collect it):
     python tests/benchmarks/bench_training.py --floor                # how low each arithmetic gets
     python tests/benchmarks/bench_training.py --adam                 # public vs private fused Adam step
     python tests/benchmarks/bench_training.py --against REV --quick  # the trainer of git revision REV vs this one
+    python tests/benchmarks/bench_training.py --steps --quick        # one step vs torch.mm, short rounds
 
 Data: a 2-sphere in R^3 placed in R^64 by a random rotation, target sin(2 x1) + x2 x3 + noise (sd 0.1),
 test MSE against the noise-free target on 2000 points. All three learners get the same hidden sizes
@@ -203,10 +204,11 @@ def torch_vmap_ensemble(spec, cfg, data, n_tr, seeds):
     return predict, step
 
 
-def matched_mm_gflops(spec, rows, threads, repeats=30):
+def matched_mm_gflops(spec, rows, threads, repeats=30, rounds=3):
     """GFLOP/s of plain ``torch.mm`` on one replica's products of one training step: per layer the
     forward (rows x fan_in)(fan_in x fan_out), the weight gradient and, above the first layer, the input
-    gradient -- the arithmetic the trainer does, without its stacking, its elementwise work or Python."""
+    gradient -- the arithmetic the trainer does, without its stacking, its elementwise work or Python.
+    Best of ``rounds`` rounds of ``repeats`` steps' products."""
     import torch
 
     from manireg._threads import torch_threads
@@ -225,7 +227,7 @@ def matched_mm_gflops(spec, rows, threads, repeats=30):
         for x, y in mats:
             torch.mm(x, y)
         best = math.inf
-        for _ in range(3):
+        for _ in range(rounds):
             t = time.perf_counter()
             for _ in range(repeats):
                 for x, y in mats:
@@ -251,27 +253,94 @@ def step_seconds(spec, replicas, rows, low, steps=60, rounds=3, update="public")
     slabs, as the trainer does). ``update="public"``: ``adam_update``'s public path (torch.optim's
     functional Adam, fused); ``"private"``: its private path (the fused kernel ``torch._fused_adam_``
     called directly, what the trainer uses when torch has it)."""
+    stepper = trainer_step(spec, replicas, rows, low, update)
+    best = math.inf
+    for _ in range(rounds):
+        best = min(best, stepper(steps))
+    return best
+
+
+def trainer_step(spec, replicas, rows, low=None, update="private", n_rows=None):
+    """A function ``run(steps)`` -> seconds per step of the trainer's optimiser step on ``replicas`` stacked
+    replicas, as ``BatchedTrainer`` runs it: the minibatch rows gathered with one index_select from a
+    (replicas * n_rows, D) table (skipped when ``n_rows`` is None), the hand-written backward writing into
+    the padded (R, P) gradient buffer, fused Adam on per-replica rows. Validation passes, stopping and
+    replicas leaving the stack are not included."""
     import torch
 
-    from manireg.nets.training import _flatten, _loss_grads, _stacked_init, _unflatten, adam_update
+    from manireg.nets.training import _ROW_ALIGN, _flatten, _loss_grads, _stacked_init, _unflatten, adam_update
 
     Ws, bs = _stacked_init(spec, range(replicas))
     L = len(Ws)
-    flat = _flatten(Ws + bs)  # the trainer's layout: one contiguous row of parameters per replica
-    params = _unflatten(flat, [tuple(t.shape[1:]) for t in Ws + bs])
+    shapes = [tuple(t.shape[1:]) for t in Ws + bs]
+    flat = _flatten(Ws + bs, _ROW_ALIGN)  # the trainer's layout: one padded contiguous row per replica
+    params = _unflatten(flat, shapes)
+    grad = torch.zeros_like(flat)
+    grads = _unflatten(grad, shapes)
     m1, m2 = torch.zeros_like(flat), torch.zeros_like(flat)
-    p_sl, m1_sl, m2_sl = list(flat.unbind(0)), list(m1.unbind(0)), list(m2.unbind(0))
-    x, y = torch.randn(replicas, rows, spec.input_dim), torch.randn(replicas, rows)
-    best = math.inf
-    for _ in range(rounds):
+    p_sl, m1_sl, m2_sl, g_sl = (list(t.unbind(0)) for t in (flat, m1, m2, grad))
+    gen = torch.Generator().manual_seed(0)
+    if n_rows is None:
+        x, y = torch.randn(replicas, rows, spec.input_dim), torch.randn(replicas, rows)
+    else:
+        X, Y = torch.randn(replicas * n_rows, spec.input_dim), torch.randn(replicas * n_rows)
+        idx = torch.randint(0, n_rows, (64, replicas * rows), generator=gen)
+        idx += (torch.arange(replicas)[:, None] * n_rows).repeat_interleave(rows, 0).view(-1)[None]
+        ys = Y[idx]
+    count = [0]
+
+    def run(steps):
         t = time.perf_counter()
-        for k in range(steps):
-            grads = _loss_grads(params[:L], params[L:], x, y, 1.0 / rows, low)
-            g_sl = list(_flatten(grads).unbind(0))
-            adam_update(p_sl, g_sl, m1_sl, m2_sl, k + 1, lr=1e-4, beta1=0.9, beta2=0.999, eps=1e-8,
+        for _ in range(steps):
+            k = count[0] = count[0] + 1
+            if n_rows is None:
+                xb, yb = x, y
+            else:
+                xb = X.index_select(0, idx[k % 64]).view(replicas, rows, -1)
+                yb = ys[k % 64].view(replicas, rows)
+            _loss_grads(params[:L], params[L:], xb, yb, 1.0 / rows, low, out=grads)
+            adam_update(p_sl, g_sl, m1_sl, m2_sl, k, lr=1e-6, beta1=0.9, beta2=0.999, eps=1e-8,
                         private=update == "private")
-        best = min(best, (time.perf_counter() - t) / steps)
-    return best
+        return (time.perf_counter() - t) / steps
+
+    return run
+
+
+def step_fractions(quick, rounds=40, steps=15):
+    """Per n of the grid: one optimiser step of 5 stacked replicas (the trainer's step, ``trainer_step``)
+    against plain torch.mm on the same products (5 x one replica's, ``matched_mm_gflops``), both at the
+    trainer's thread count, in ``rounds`` short alternating rounds; the best round of each. Short rounds
+    and the best of many let both sides find the same quiet moments of a shared machine, which a whole
+    fit (one long run) cannot."""
+    import os
+
+    from manireg._threads import torch_threads
+    from manireg.nets.training import auto_threads
+    from manireg.theory import size_network
+
+    ns = [256, 512, 1024, 2048] if quick else [256, 512, 1024, 2048, 4096, 8192]
+    print(f"one optimiser step of 5 stacked replicas vs torch.mm on the same products, best of {rounds} "
+          f"alternating rounds of {steps} steps; load average {tuple(round(v, 2) for v in os.getloadavg())} "
+          "(2 cores shared with other work)")
+    print("| n | width x depth | rows/step | threads | trainer step us | torch.mm us (5 replicas) | fraction of the mm rate |")
+    print("|---|---|---|---|---|---|---|")
+    for n in ns:
+        n_tr = n - n // 5
+        spec = size_network(n_tr, 2, 1, ambient_dim=64)
+        rows = n_tr if n_tr <= 256 else 128
+        threads = auto_threads(spec, 5 * rows)
+        run = trainer_step(spec, 5, rows, n_rows=None if n_tr <= 256 else n_tr)
+        with torch_threads(threads):
+            run(steps)
+            best_step, best_mm = math.inf, math.inf
+            for _ in range(rounds):
+                best_step = min(best_step, run(steps))
+                rate, flops = matched_mm_gflops(spec, rows, threads, repeats=steps, rounds=1)
+                best_mm = min(best_mm, 5 * flops / (rate * 1e9))
+        print(f"| {n} | {spec.width} x {spec.depth} | {rows} | {threads or 'torch'} | {best_step * 1e6:.0f} | "
+              f"{best_mm * 1e6:.0f} | {best_mm / best_step:.2f} |", flush=True)
+    print(f"load average at end {tuple(round(v, 2) for v in os.getloadavg())}")
+    return 0
 
 
 def adam_paths():
@@ -366,10 +435,11 @@ def floor():
     return 0
 
 
-def against(rev, quick):
+def against(rev, quick, rounds=3):
     """The trainer of git revision ``rev`` against the working tree's, the same tasks (5 repeats, the
-    benchmark grid, default float32 config), rounds alternating; per n the best-of-2 seconds of each
-    and each one's fraction of plain torch.mm's rate on the same products."""
+    benchmark grid, default float32 config), rounds alternating; per n the best-of-``rounds`` seconds of
+    each and each one's fraction of plain torch.mm's rate on the same products (timed in every round too,
+    best round: the reference sees the same load as the fits)."""
     import importlib.util
     import os
     import subprocess
@@ -399,10 +469,12 @@ def against(rev, quick):
         spec = size_network(n_tr, 2, 1, ambient_dim=64)
         tasks = [ReplicaTask(X[:n_tr], y[:n_tr], X[n_tr:], y[n_tr:], seed=r) for r, (X, y, _) in enumerate(data)]
         rows = n_tr if n_tr <= cfg.full_batch_threshold else min(cfg.batch_size, n_tr)
-        mm_rate, mm_flops = matched_mm_gflops(spec, rows, auto_threads(spec, 5 * rows))
+        mm_rate = 0.0
         best = {"before": math.inf, "after": math.inf}
         out = {}
-        for _ in range(2):
+        for _ in range(rounds):
+            rate, mm_flops = matched_mm_gflops(spec, rows, auto_threads(spec, 5 * rows))
+            mm_rate = max(mm_rate, rate)
             for name, mod in (("before", old), ("after", None)):
                 cls, conf, task = ((BatchedTrainer, cfg, ReplicaTask) if mod is None
                                    else (mod.BatchedTrainer, mod.TrainConfig(precision="float32"), mod.ReplicaTask))
@@ -427,9 +499,13 @@ def main(argv=None):
     parser.add_argument("--floor", action="store_true", help="only the noise-free floor of each arithmetic")
     parser.add_argument("--adam", action="store_true", help="only the public vs private fused Adam step times")
     parser.add_argument("--against", metavar="REV", help="only: the trainer of git revision REV vs this one")
+    parser.add_argument("--steps", action="store_true",
+                        help="only: one optimiser step vs torch.mm on the same products, short alternating rounds")
     args = parser.parse_args(argv)
     if args.against:
         return against(args.against, args.quick)
+    if args.steps:
+        return step_fractions(args.quick)
     if args.adam:
         return adam_paths()
     if args.crossover:
@@ -478,6 +554,8 @@ def main(argv=None):
         trainer = BatchedTrainer(spec, cfg)
         res = trainer.fit(tasks)
         tb = time.perf_counter() - t
+        # the reference again right after the fit, best of the two: closer to the load the fit saw
+        mm_rate = max(mm_rate, matched_mm_gflops(spec, rows, auto_threads(spec, repeats * rows))[0])
         mse_b = float(np.mean((trainer.predict(Xte) - fte) ** 2, axis=1).mean())
         flops = sum(6.0 * spec.n_parameters * rows * r.steps for r in res)
         gfl = flops / tb / 1e9
