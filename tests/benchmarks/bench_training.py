@@ -10,6 +10,7 @@ Run as a script (pytest does not collect it):
     python tests/benchmarks/bench_training.py --adam                 # public vs private fused Adam step
     python tests/benchmarks/bench_training.py --against REV --quick  # the trainer of git revision REV vs this one
     python tests/benchmarks/bench_training.py --steps --quick        # one step vs torch.mm, short rounds
+    python tests/benchmarks/bench_training.py --steps --against REV  # the same, REV's step beside this one's
 
 Data: a 2-sphere in R^3 placed in R^64 by a random rotation, target sin(2 x1) + x2 x3 + noise (sd 0.1),
 test MSE against the noise-free target on 2000 points. All three learners get the same hidden sizes
@@ -260,23 +261,27 @@ def step_seconds(spec, replicas, rows, low, steps=60, rounds=3, update="public")
     return best
 
 
-def trainer_step(spec, replicas, rows, low=None, update="private", n_rows=None):
+def trainer_step(spec, replicas, rows, low=None, update="private", n_rows=None, module=None):
     """A function ``run(steps)`` -> seconds per step of the trainer's optimiser step on ``replicas`` stacked
     replicas, as ``BatchedTrainer`` runs it: the minibatch rows gathered with one index_select from a
     (replicas * n_rows, D) table (skipped when ``n_rows`` is None), the hand-written backward writing into
     the padded (R, P) gradient buffer, fused Adam on per-replica rows. Validation passes, stopping and
-    replicas leaving the stack are not included."""
+    replicas leaving the stack are not included. ``module``: the trainer module to take the step from
+    (default this tree's); a module from before the gradient buffer (no ``_ROW_ALIGN``) gets that
+    revision's step: fresh gradients concatenated into one (R, P) tensor and unbound every step."""
     import torch
 
-    from manireg.nets.training import _ROW_ALIGN, _flatten, _loss_grads, _stacked_init, _unflatten, adam_update
-
-    Ws, bs = _stacked_init(spec, range(replicas))
+    if module is None:
+        from manireg.nets import training as module
+    buffered = hasattr(module, "_ROW_ALIGN")
+    Ws, bs = module._stacked_init(spec, range(replicas))
     L = len(Ws)
     shapes = [tuple(t.shape[1:]) for t in Ws + bs]
-    flat = _flatten(Ws + bs, _ROW_ALIGN)  # the trainer's layout: one padded contiguous row per replica
-    params = _unflatten(flat, shapes)
+    # the trainer's layout: one contiguous (padded) row of parameters per replica
+    flat = module._flatten(Ws + bs, module._ROW_ALIGN) if buffered else module._flatten(Ws + bs)
+    params = module._unflatten(flat, shapes)
     grad = torch.zeros_like(flat)
-    grads = _unflatten(grad, shapes)
+    grads = module._unflatten(grad, shapes)
     m1, m2 = torch.zeros_like(flat), torch.zeros_like(flat)
     p_sl, m1_sl, m2_sl, g_sl = (list(t.unbind(0)) for t in (flat, m1, m2, grad))
     gen = torch.Generator().manual_seed(0)
@@ -295,52 +300,93 @@ def trainer_step(spec, replicas, rows, low=None, update="private", n_rows=None):
             k = count[0] = count[0] + 1
             if n_rows is None:
                 xb, yb = x, y
-            else:
+            elif buffered:  # a chunk's targets gathered once (set_chunk)
                 xb = X.index_select(0, idx[k % 64]).view(replicas, rows, -1)
                 yb = ys[k % 64].view(replicas, rows)
-            _loss_grads(params[:L], params[L:], xb, yb, 1.0 / rows, low, out=grads)
-            adam_update(p_sl, g_sl, m1_sl, m2_sl, k, lr=1e-6, beta1=0.9, beta2=0.999, eps=1e-8,
-                        private=update == "private")
+            else:  # one gather of rows and one of targets per step
+                xb = X.index_select(0, idx[k % 64]).view(replicas, rows, -1)
+                yb = Y.index_select(0, idx[k % 64]).view(replicas, rows)
+            if buffered:
+                module._loss_grads(params[:L], params[L:], xb, yb, 1.0 / rows, low, out=grads)
+                slabs = g_sl
+            else:
+                slabs = module._flatten(module._loss_grads(params[:L], params[L:], xb, yb, 1.0 / rows, low)).unbind(0)
+            module.adam_update(p_sl, slabs, m1_sl, m2_sl, k, lr=1e-6, beta1=0.9, beta2=0.999, eps=1e-8,
+                               private=update == "private")
         return (time.perf_counter() - t) / steps
 
     return run
 
 
-def step_fractions(quick, rounds=40, steps=15):
-    """Per n of the grid: one optimiser step of 5 stacked replicas (the trainer's step, ``trainer_step``)
-    against plain torch.mm on the same products (5 x one replica's, ``matched_mm_gflops``), both at the
-    trainer's thread count, in ``rounds`` short alternating rounds; the best round of each. Short rounds
-    and the best of many let both sides find the same quiet moments of a shared machine, which a whole
-    fit (one long run) cannot."""
+def step_fractions(quick, replicas=5, rounds=40, steps=15, rev=None):
+    """Per n of the grid: one optimiser step of ``replicas`` stacked replicas (the trainer's step,
+    ``trainer_step``) against plain torch.mm on the same products (``replicas`` x one replica's,
+    ``matched_mm_gflops``), both at the trainer's thread count, in ``rounds`` short alternating rounds; the
+    best round of each. Short rounds and the best of many let both sides find the same quiet moments of a
+    shared machine, which a whole fit (one long run) cannot. ``rev``: also the step of the trainer at that
+    git revision, in the same rounds."""
     import os
 
     from manireg._threads import torch_threads
     from manireg.nets.training import auto_threads
     from manireg.theory import size_network
 
+    old = _module_at(rev) if rev else None
     ns = [256, 512, 1024, 2048] if quick else [256, 512, 1024, 2048, 4096, 8192]
-    print(f"one optimiser step of 5 stacked replicas vs torch.mm on the same products, best of {rounds} "
+    print(f"one optimiser step of {replicas} stacked replicas vs torch.mm on the same products, best of {rounds} "
           f"alternating rounds of {steps} steps; load average {tuple(round(v, 2) for v in os.getloadavg())} "
           "(2 cores shared with other work)")
-    print("| n | width x depth | rows/step | threads | trainer step us | torch.mm us (5 replicas) | fraction of the mm rate |")
-    print("|---|---|---|---|---|---|---|")
+    if old is None:
+        print("| n | width x depth | rows/step | threads | trainer step us | torch.mm us | fraction of the mm rate |")
+        print("|---|---|---|---|---|---|---|")
+    else:
+        print(f"| n | width x depth | rows/step | threads | step us at {rev} (before) | step us (after) | torch.mm us "
+              "| before, of mm | after, of mm |")
+        print("|---|---|---|---|---|---|---|---|---|")
     for n in ns:
         n_tr = n - n // 5
         spec = size_network(n_tr, 2, 1, ambient_dim=64)
         rows = n_tr if n_tr <= 256 else 128
-        threads = auto_threads(spec, 5 * rows)
-        run = trainer_step(spec, 5, rows, n_rows=None if n_tr <= 256 else n_tr)
+        threads = auto_threads(spec, replicas * rows)
+        n_rows = None if n_tr <= 256 else n_tr
+        runs = {"after": trainer_step(spec, replicas, rows, n_rows=n_rows)}
+        if old is not None:
+            runs["before"] = trainer_step(spec, replicas, rows, n_rows=n_rows, module=old)
         with torch_threads(threads):
-            run(steps)
-            best_step, best_mm = math.inf, math.inf
+            best = {k: math.inf for k in runs}
+            best_mm = math.inf
+            for r in runs.values():
+                r(steps)
             for _ in range(rounds):
-                best_step = min(best_step, run(steps))
+                for k, r in runs.items():
+                    best[k] = min(best[k], r(steps))
                 rate, flops = matched_mm_gflops(spec, rows, threads, repeats=steps, rounds=1)
-                best_mm = min(best_mm, 5 * flops / (rate * 1e9))
-        print(f"| {n} | {spec.width} x {spec.depth} | {rows} | {threads or 'torch'} | {best_step * 1e6:.0f} | "
-              f"{best_mm * 1e6:.0f} | {best_mm / best_step:.2f} |", flush=True)
+                best_mm = min(best_mm, replicas * flops / (rate * 1e9))
+        head = f"| {n} | {spec.width} x {spec.depth} | {rows} | {threads or 'torch'} |"
+        if old is None:
+            print(f"{head} {best['after'] * 1e6:.0f} | {best_mm * 1e6:.0f} | {best_mm / best['after']:.2f} |", flush=True)
+        else:
+            print(f"{head} {best['before'] * 1e6:.0f} | {best['after'] * 1e6:.0f} | {best_mm * 1e6:.0f} | "
+                  f"{best_mm / best['before']:.2f} | {best_mm / best['after']:.2f} |", flush=True)
     print(f"load average at end {tuple(round(v, 2) for v in os.getloadavg())}")
     return 0
+
+
+def _module_at(rev):
+    """``manireg/nets/training.py`` of git revision ``rev``, loaded as a module of its own."""
+    import importlib.util
+    import os
+    import subprocess
+    import sys
+
+    root = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+    src = subprocess.run(["git", "show", f"{rev}:manireg/nets/training.py"], cwd=root, capture_output=True,
+                         text=True, check=True).stdout
+    spec_ = importlib.util.spec_from_loader("_trainer_at_rev", loader=None)
+    old = importlib.util.module_from_spec(spec_)
+    sys.modules[spec_.name] = old  # dataclasses look their module up
+    exec(compile(src, f"{rev}:manireg/nets/training.py", "exec"), old.__dict__)
+    return old
 
 
 def adam_paths():
@@ -440,23 +486,14 @@ def against(rev, quick, rounds=3):
     benchmark grid, default float32 config), rounds alternating; per n the best-of-``rounds`` seconds of
     each and each one's fraction of plain torch.mm's rate on the same products (timed in every round too,
     best round: the reference sees the same load as the fits)."""
-    import importlib.util
     import os
-    import subprocess
-    import sys
 
     from manireg._threads import torch_threads  # noqa: F401 - imported by the old module too
     from manireg.nets import BatchedTrainer, ReplicaTask, TrainConfig
     from manireg.nets.training import auto_threads
     from manireg.theory import size_network
 
-    root = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
-    src = subprocess.run(["git", "show", f"{rev}:manireg/nets/training.py"], cwd=root, capture_output=True,
-                         text=True, check=True).stdout
-    spec_ = importlib.util.spec_from_loader("_trainer_at_rev", loader=None)
-    old = importlib.util.module_from_spec(spec_)
-    sys.modules[spec_.name] = old  # dataclasses look their module up
-    exec(compile(src, f"{rev}:manireg/nets/training.py", "exec"), old.__dict__)
+    old = _module_at(rev)
     cfg = TrainConfig(precision="float32")
     ns = [256, 512, 1024, 2048] if quick else [256, 512, 1024, 2048, 4096, 8192]
     print(f"trainer at {rev} (before) against the working tree (after); load average "
@@ -500,12 +537,13 @@ def main(argv=None):
     parser.add_argument("--adam", action="store_true", help="only the public vs private fused Adam step times")
     parser.add_argument("--against", metavar="REV", help="only: the trainer of git revision REV vs this one")
     parser.add_argument("--steps", action="store_true",
-                        help="only: one optimiser step vs torch.mm on the same products, short alternating rounds")
+                        help="only: one optimiser step vs torch.mm on the same products, short alternating rounds "
+                             "(--repeats: stacked replicas, default 5; with --against REV also REV's step)")
     args = parser.parse_args(argv)
+    if args.steps:
+        return step_fractions(args.quick, replicas=args.repeats or 5, rev=args.against)
     if args.against:
         return against(args.against, args.quick)
-    if args.steps:
-        return step_fractions(args.quick)
     if args.adam:
         return adam_paths()
     if args.crossover:
