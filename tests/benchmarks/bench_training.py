@@ -318,13 +318,44 @@ def trainer_step(spec, replicas, rows, low=None, update="private", n_rows=None, 
     return run
 
 
-def step_fractions(quick, replicas=5, rounds=40, steps=15, rev=None):
+def stacked_products(spec, replicas, rows):
+    """A function ``run(steps)`` -> seconds per step of only the trainer's stacked matrix products of one
+    step (forward ``baddbmm``, weight- and input-gradient ``bmm``; the output layer's one-column products
+    excluded, as the trainer does them elementwise) on fixed operands that stay in cache between calls: what
+    the products cost without the rest of the step between them."""
+    import torch
+
+    sizes = [spec.input_dim, *spec.hidden_sizes, 1]
+    R = replicas
+    Ws = [torch.randn(R, a, b) for a, b in zip(sizes[:-2], sizes[1:-1])]
+    bs = [torch.randn(R, 1, b) for b in sizes[1:-1]]
+    hs = [torch.randn(R, rows, a) for a in sizes[:-2]]
+    gs = [torch.randn(R, rows, b) for b in sizes[1:-1]]
+
+    def run(steps):
+        t = time.perf_counter()
+        for _ in range(steps):
+            for i in range(len(Ws)):
+                torch.baddbmm(bs[i], hs[i], Ws[i])
+            for i in range(len(Ws) - 1, -1, -1):
+                torch.bmm(hs[i].transpose(1, 2), gs[i])
+                if i > 0:
+                    torch.bmm(gs[i], Ws[i].transpose(1, 2))
+        return (time.perf_counter() - t) / steps
+
+    return run
+
+
+def step_fractions(quick, replicas=5, rounds=40, steps=15, rev=None, threads=None):
     """Per n of the grid: one optimiser step of ``replicas`` stacked replicas (the trainer's step,
     ``trainer_step``) against plain torch.mm on the same products (``replicas`` x one replica's,
     ``matched_mm_gflops``), both at the trainer's thread count, in ``rounds`` short alternating rounds; the
     best round of each. Short rounds and the best of many let both sides find the same quiet moments of a
-    shared machine, which a whole fit (one long run) cannot. ``rev``: also the step of the trainer at that
-    git revision, in the same rounds."""
+    shared machine, which a whole fit (one long run) cannot. Also timed in the same rounds: the step's stacked
+    products alone (``stacked_products``), so the table splits a step into products and the rest. ``rev``:
+    also the step of the trainer at that
+    git revision, in the same rounds. ``threads``: torch threads of both sides instead of the trainer's
+    policy (``auto_threads``)."""
     import os
 
     from manireg._threads import torch_threads
@@ -337,22 +368,24 @@ def step_fractions(quick, replicas=5, rounds=40, steps=15, rev=None):
           f"alternating rounds of {steps} steps; load average {tuple(round(v, 2) for v in os.getloadavg())} "
           "(2 cores shared with other work)")
     if old is None:
-        print("| n | width x depth | rows/step | threads | trainer step us | torch.mm us | fraction of the mm rate |")
-        print("|---|---|---|---|---|---|---|")
+        print("| n | width x depth | rows/step | threads | trainer step us | its products alone us | torch.mm us "
+              "| fraction of the mm rate |")
+        print("|---|---|---|---|---|---|---|---|")
     else:
-        print(f"| n | width x depth | rows/step | threads | step us at {rev} (before) | step us (after) | torch.mm us "
-              "| before, of mm | after, of mm |")
-        print("|---|---|---|---|---|---|---|---|---|")
+        print(f"| n | width x depth | rows/step | threads | step us at {rev} (before) | step us (after) | "
+              "its products alone us | torch.mm us | before, of mm | after, of mm |")
+        print("|---|---|---|---|---|---|---|---|---|---|")
     for n in ns:
         n_tr = n - n // 5
         spec = size_network(n_tr, 2, 1, ambient_dim=64)
         rows = n_tr if n_tr <= 256 else 128
-        threads = auto_threads(spec, replicas * rows)
+        th = auto_threads(spec, replicas * rows) if threads is None else threads
         n_rows = None if n_tr <= 256 else n_tr
         runs = {"after": trainer_step(spec, replicas, rows, n_rows=n_rows)}
         if old is not None:
             runs["before"] = trainer_step(spec, replicas, rows, n_rows=n_rows, module=old)
-        with torch_threads(threads):
+        runs["products"] = stacked_products(spec, replicas, rows)
+        with torch_threads(th):
             best = {k: math.inf for k in runs}
             best_mm = math.inf
             for r in runs.values():
@@ -360,13 +393,15 @@ def step_fractions(quick, replicas=5, rounds=40, steps=15, rev=None):
             for _ in range(rounds):
                 for k, r in runs.items():
                     best[k] = min(best[k], r(steps))
-                rate, flops = matched_mm_gflops(spec, rows, threads, repeats=steps, rounds=1)
+                rate, flops = matched_mm_gflops(spec, rows, th, repeats=steps, rounds=1)
                 best_mm = min(best_mm, replicas * flops / (rate * 1e9))
-        head = f"| {n} | {spec.width} x {spec.depth} | {rows} | {threads or 'torch'} |"
+        head = f"| {n} | {spec.width} x {spec.depth} | {rows} | {th or 'torch'} |"
         if old is None:
-            print(f"{head} {best['after'] * 1e6:.0f} | {best_mm * 1e6:.0f} | {best_mm / best['after']:.2f} |", flush=True)
+            print(f"{head} {best['after'] * 1e6:.0f} | {best['products'] * 1e6:.0f} | {best_mm * 1e6:.0f} | "
+                  f"{best_mm / best['after']:.2f} |", flush=True)
         else:
-            print(f"{head} {best['before'] * 1e6:.0f} | {best['after'] * 1e6:.0f} | {best_mm * 1e6:.0f} | "
+            print(f"{head} {best['before'] * 1e6:.0f} | {best['after'] * 1e6:.0f} | {best['products'] * 1e6:.0f} | "
+                  f"{best_mm * 1e6:.0f} | "
                   f"{best_mm / best['before']:.2f} | {best_mm / best['after']:.2f} |", flush=True)
     print(f"load average at end {tuple(round(v, 2) for v in os.getloadavg())}")
     return 0
@@ -536,12 +571,14 @@ def main(argv=None):
     parser.add_argument("--floor", action="store_true", help="only the noise-free floor of each arithmetic")
     parser.add_argument("--adam", action="store_true", help="only the public vs private fused Adam step times")
     parser.add_argument("--against", metavar="REV", help="only: the trainer of git revision REV vs this one")
+    parser.add_argument("--threads", type=int, default=None,
+                        help="with --steps: torch threads of both sides instead of the trainer's policy")
     parser.add_argument("--steps", action="store_true",
                         help="only: one optimiser step vs torch.mm on the same products, short alternating rounds "
                              "(--repeats: stacked replicas, default 5; with --against REV also REV's step)")
     args = parser.parse_args(argv)
     if args.steps:
-        return step_fractions(args.quick, replicas=args.repeats or 5, rev=args.against)
+        return step_fractions(args.quick, replicas=args.repeats or 5, rev=args.against, threads=args.threads)
     if args.against:
         return against(args.against, args.quick)
     if args.adam:
