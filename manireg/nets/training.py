@@ -605,9 +605,9 @@ def _loss_grads(Ws, bs, x, y, w, low=None, loss="mse", out=None):
     gW, gb = [None] * len(Ws), [None] * len(Ws)
     # The output layer's products as elementwise products and row sums, one output column at a time (the
     # stack-independent form of _output_layer): its weight gradient is a matrix-vector product per column and
-    # the gradient flowing back an outer product, shapes for which bmm picks slow kernels (measured 30-70 us
-    # against 6-8 us for the (5, 128, w) outer product) and, for the matrix-vector one, a kernel that may depend
-    # on the stack height or on where its result is written.
+    # the gradient flowing back an outer product, shapes on which bmm is slow (docs/theory.md, "Trainer
+    # speed") and, for the matrix-vector one, takes a kernel whose rounding may depend on the stack height or
+    # on where its result is written.
     h = hs[last]
     K = g.shape[-1]
     cols = [g[:, :, k:k + 1] for k in range(K)]
