@@ -624,7 +624,9 @@ def _loss_grads(Ws, bs, x, y, w, low=None, loss="mse", out=None):
         back = cols[0] * Wc[last][:, None, :, 0]
         for k in range(1, K):
             back.add_(cols[k] * Wc[last][:, None, :, k])
-        g = _RELU_BACKWARD(back, h, 0.0, grad_input=back).to(dt[last - 1])
+        g = _RELU_BACKWARD(back, h, 0.0, grad_input=back)
+        if low is not None:
+            g = g.to(dt[last - 1])
     top = last - 1
     for i in range(top, -1, -1):
         if out is None:
