@@ -394,3 +394,38 @@ def test_fit_takes_an_iterator_and_frees_each_tasks_rows_once_prepared(monkeypat
             assert streamed[i].val_mse == pytest.approx(np.mean((pred_va - t.y_val) ** 2), rel=1e-5)
     with pytest.raises(ValueError, match="at least one ReplicaTask"):
         BatchedTrainer(spec, cfg).fit(iter([]))
+
+
+def test_gradients_written_into_a_buffer_equal_fresh_ones():
+    # The trainer lets _loss_grads write into views of one preallocated (R, P) buffer; the numbers must be
+    # the ones it returns without the buffer (themselves checked against autograd above), in both
+    # arithmetics and for K > 1 outputs: a missed layer, a wrong view or a stale buffer would show. torch
+    # runs a product into a strided view as one GEMM per replica rather than its batched GEMM, which may
+    # round differently: float32 rounding tolerance (common practice), the bias sums bit for bit (one kernel).
+    from manireg.nets.training import _ROW_ALIGN, _flatten, _loss_grads, _unflatten
+
+    g = torch.Generator().manual_seed(2)
+    R, B = 3, 40
+    for sizes, loss, low in (([D, 24, 24, 24, 1], "mse", None), ([D, 24, 24, 24, 1], "mse", torch.bfloat16),
+                             ([D, 16, 16, 3], "cross_entropy", None)):
+        Ws = [torch.randn(R, a, b, generator=g) / a**0.5 for a, b in zip(sizes[:-1], sizes[1:])]
+        bs = [0.1 * torch.randn(R, 1, b, generator=g) for b in sizes[1:]]
+        x = torch.randn(R, B, D, generator=g)
+        K = sizes[-1]
+        y = (torch.randn(R, B, generator=g) if K == 1
+             else torch.nn.functional.one_hot(torch.randint(0, K, (R, B), generator=g), K).float())
+        fresh = _loss_grads(Ws, bs, x, y, 1.0 / B, low, loss)
+        buf = torch.zeros_like(_flatten(Ws + bs, _ROW_ALIGN))
+        assert buf.shape[1] % _ROW_ALIGN == 0
+        views = _unflatten(buf, [tuple(t.shape[1:]) for t in Ws + bs])
+        buf.fill_(float("nan"))  # every entry must be written (a stale buffer would keep its NaNs)
+        written = _loss_grads(Ws, bs, x, y, 1.0 / B, low, loss, out=views)
+        L = len(Ws)
+        for i, (a, b, v) in enumerate(zip(fresh, written, views)):
+            assert b.data_ptr() == v.data_ptr()
+            if i >= L:
+                assert torch.equal(a, v)
+            else:
+                torch.testing.assert_close(v, a, rtol=1e-5, atol=1e-7)
+        n_used = sum(t[0].numel() for t in views)
+        assert bool(torch.isnan(buf[:, n_used:]).all())  # the row padding is not written

@@ -564,7 +564,7 @@ def _row_weights(counts, length):
     return w
 
 
-def _loss_grads(Ws, bs, x, y, w, low=None, loss="mse"):
+def _loss_grads(Ws, bs, x, y, w, low=None, loss="mse", out=None):
     """Gradients of ``sum_r sum_i w_ri loss(z_ri, y_ri)`` for the stacked net, by hand (no autograd).
 
     ``loss`` is one of :data:`manireg.nets.losses.LOSSES` (default ``"mse"``, ``(z - y)^2``); the output
@@ -581,6 +581,13 @@ def _loss_grads(Ws, bs, x, y, w, low=None, loss="mse"):
     gradients flowing between hidden layers are kept in ``low`` (the matrix products accumulate in
     float32 inside the kernel), and the first and last layers, the loss, the bias-gradient sums and every
     returned gradient stay float32. ``None``: everything float32.
+
+    ``out``: None, or float32 tensors shaped like ``Ws + bs`` (the trainer passes views of one preallocated
+    (R, P) buffer): the gradients are written into them (``bmm(..., out=)``, ``sum(..., out=)``) and they
+    are returned, so a step allocates no gradient tensors and needs no concatenation before Adam. torch
+    computes a product into such a strided view one replica at a time (one GEMM per replica) instead of
+    with its batched GEMM, so a weight gradient may differ from the ``out=None`` one in the last bit
+    (tested: within float32 rounding); each replica's numbers stay independent of its stack either way.
     """
     last = len(Ws) - 1
     dt = _layer_dtypes(len(Ws), low)
@@ -596,37 +603,74 @@ def _loss_grads(Ws, bs, x, y, w, low=None, loss="mse"):
     z = _output_layer(hs[last], Ws[last], bs[last])
     g = output_gradient(loss, z, y, w)
     gW, gb = [None] * len(Ws), [None] * len(Ws)
-    if g.shape[-1] > 1:
-        # K > 1 outputs: the output layer's products one output column at a time, as products and sums
-        # (the stack-independent form of _output_layer; a bmm may pick its kernel from the stack height)
-        h = hs[last]
-        cols = [g[:, :, k:k + 1] for k in range(g.shape[-1])]
-        gW[last] = torch.stack([(h * c).sum(dim=1) for c in cols], dim=-1)
-        gb[last] = g.sum(dim=1, keepdim=True, dtype=torch.float32)
-        if last > 0:
-            back = cols[0] * Wc[last][:, None, :, 0]
-            for k in range(1, len(cols)):
-                back.add_(cols[k] * Wc[last][:, None, :, k])
-            g = torch.ops.aten.threshold_backward(back, h, 0.0).to(dt[last - 1])
-        top = last - 1
+    # The output layer's products as elementwise products and row sums, one output column at a time (the
+    # stack-independent form of _output_layer): its weight gradient is a matrix-vector product per column and
+    # the gradient flowing back an outer product, shapes on which bmm is slow (docs/theory.md, "Trainer
+    # speed") and, for the matrix-vector one, takes a kernel whose rounding may depend on the stack height or
+    # on where its result is written.
+    h = hs[last]
+    K = g.shape[-1]
+    cols = [g[:, :, k:k + 1] for k in range(K)]
+    if K == 1:
+        gW[last] = (h * g).sum(dim=1).unsqueeze(-1)
     else:
-        top = last
-    for i in range(top, -1, -1):
-        gW[i] = torch.bmm(hs[i].transpose(1, 2), g)
+        gW[last] = torch.stack([(h * c).sum(dim=1) for c in cols], dim=-1)
+    gb[last] = g.sum(dim=1, keepdim=True, dtype=torch.float32)
+    if out is not None:
+        gW[last] = out[last].copy_(gW[last])
+        gb[last] = out[last + len(Ws)].copy_(gb[last])
+    if last > 0:
+        # (R, B, 1) x (R, 1, w) products: one rounding per entry, as in the outer-product bmm they replace
+        back = cols[0] * Wc[last][:, None, :, 0]
+        for k in range(1, K):
+            back.add_(cols[k] * Wc[last][:, None, :, k])
+        g = _RELU_BACKWARD(back, h, 0.0, grad_input=back)
         if low is not None:
-            gW[i] = gW[i].float()
-        gb[i] = g.sum(dim=1, keepdim=True, dtype=torch.float32)
+            g = g.to(dt[last - 1])
+    top = last - 1
+    for i in range(top, -1, -1):
+        if out is None:
+            gW[i] = torch.bmm(hs[i].transpose(1, 2), g)
+            if low is not None:
+                gW[i] = gW[i].float()
+            gb[i] = g.sum(dim=1, keepdim=True, dtype=torch.float32)
+        else:
+            if low is None:
+                gW[i] = torch.bmm(hs[i].transpose(1, 2), g, out=out[i])
+            else:  # bfloat16 products: a fresh tensor, copied into the float32 buffer
+                gW[i] = out[i].copy_(torch.bmm(hs[i].transpose(1, 2), g))
+            gb[i] = torch.sum(g, dim=1, keepdim=True, dtype=torch.float32, out=out[last + 1 + i])
         if i > 0:
-            g = torch.ops.aten.threshold_backward(torch.bmm(g, Wc[i].transpose(1, 2)), hs[i], 0.0)
+            back = torch.bmm(g, Wc[i].transpose(1, 2))
+            # the ReLU mask applied in place (threshold_backward into its own input: no new tensor)
+            g = _RELU_BACKWARD(back, hs[i], 0.0, grad_input=back)
             if low is not None:
                 g = g.to(dt[i - 1])
     return gW + gb
 
 
-def _flatten(tensors):
-    """Stacked (R, ...) tensors as one (R, P) tensor: each replica's entries in one contiguous row."""
+#: ``threshold_backward`` with an output argument: the ReLU's backward mask written into a given tensor.
+_RELU_BACKWARD = torch.ops.aten.threshold_backward.grad_input
+
+
+def _flatten(tensors, multiple=1):
+    """Stacked (R, ...) tensors as one (R, P) tensor: each replica's entries in one contiguous row, followed
+    by zeros up to a row length that is a multiple of ``multiple``."""
     R = tensors[0].shape[0]
-    return torch.cat([t.reshape(R, -1) for t in tensors], dim=1)
+    parts = [t.reshape(R, -1) for t in tensors]
+    P = sum(p.shape[1] for p in parts)
+    if P % multiple:
+        parts.append(torch.zeros(R, multiple - P % multiple, dtype=parts[0].dtype))
+    return torch.cat(parts, dim=1)
+
+
+#: Row length of the trainer's flat (R, P) buffers is padded to a multiple of this many float32 entries
+#: (64 bytes): every replica's row, and so each of its weight and gradient views, then starts at the same
+#: alignment wherever the replica sits in the stack. MKL documents that its results may depend on the
+#: alignment of the arrays it is given; a one-column gradient product written into a view did change with
+#: the replica's row when the rows were not padded. The padding holds zeros, gets zero gradients and stays
+#: zero under Adam.
+_ROW_ALIGN = 16
 
 
 def _unflatten(flat, shapes):
@@ -705,8 +749,11 @@ class _ReplicaState:
     idx_chunk: torch.Tensor | None = None  # minibatch: drawn rows of the current chunk of steps
     masks: list | None = None  # after pruning: 0/1 masks of the weights
     params: list = field(init=False)  # views of flat: weights (R, in, out) then biases (R, 1, out)
-    slabs: list = field(init=False)
-    row_offsets: torch.Tensor | None = None  # minibatch: (Ra, 1) start of each replica's rows in flat_X
+    grad: torch.Tensor = field(init=False)  # (R, P) gradient buffer, laid out like flat
+    grads: list = field(init=False)  # views of grad, shaped like params (what _loss_grads writes into)
+    slabs: list = field(init=False)  # per-replica rows of flat, m1, m2 and grad (Adam's tensor lists)
+    step_rows: torch.Tensor | None = None  # minibatch: (chunk, Ra * B) rows of flat_X of each step of the chunk
+    y_chunk: torch.Tensor | None = None  # minibatch: (chunk, Ra, B, ...) targets of each step of the chunk
     flat_X: torch.Tensor | None = field(init=False)
     flat_Y: torch.Tensor | None = field(init=False)
 
@@ -715,7 +762,9 @@ class _ReplicaState:
 
     def _derive(self):
         self.params = _unflatten(self.flat, self.shapes)
-        self.slabs = [list(self.flat.unbind(0)), list(self.m1.unbind(0)), list(self.m2.unbind(0))]
+        self.grad = torch.zeros_like(self.flat)  # the padding of each row stays zero
+        self.grads = _unflatten(self.grad, self.shapes)
+        self.slabs = [list(t.unbind(0)) for t in (self.flat, self.m1, self.m2, self.grad)]
         if self.gens is None:
             self.flat_X = self.flat_Y = None
         else:
@@ -737,9 +786,20 @@ class _ReplicaState:
             self.X, self.Y = self.X[ki].contiguous(), self.Y[ki].contiguous()
             self.gens = [self.gens[i] for i in rows]
             self.buffers = [self.buffers[i] for i in rows]
-            if self.idx_chunk is not None:  # a chunk drawn earlier still serves the next steps
-                self.idx_chunk = self.idx_chunk[ki]
         self._derive()
+        if self.idx_chunk is not None:  # a chunk drawn earlier still serves the next steps
+            self.set_chunk(self.idx_chunk[ki])
+
+    def set_chunk(self, idx_chunk) -> None:
+        """Take ``idx_chunk`` (Ra, chunk, B), each active replica's rows for the next ``chunk`` minibatch
+        steps, and derive once per chunk what the steps read: the rows of ``flat_X`` of each step (one
+        contiguous index vector per step) and the targets of every step (one gather for the chunk; a
+        minibatch's targets are then a view). The same rows as one gather per step, so the same numbers."""
+        self.idx_chunk = idx_chunk
+        Ra, chunk, B = idx_chunk.shape
+        offsets = torch.arange(Ra, dtype=torch.int64)[:, None, None] * self.Y.shape[1]
+        self.step_rows = (idx_chunk + offsets).transpose(0, 1).reshape(chunk, Ra * B)
+        self.y_chunk = self.flat_Y.index_select(0, self.step_rows.reshape(-1)).view(chunk, Ra, B, *self.Y.shape[2:])
 
 
 class BatchedTrainer:
@@ -928,7 +988,7 @@ class BatchedTrainer:
         Ws, bs = _stacked_init(spec, [derive_seed(p.seed, 0) for p in reps], self.n_outputs)
         L = len(Ws)
         shapes = [tuple(t.shape[1:]) for t in Ws + bs]
-        flat = _flatten(Ws + bs)  # (R, P): each replica's parameters in one contiguous row
+        flat = _flatten(Ws + bs, _ROW_ALIGN)  # (R, P): each replica's parameters in one contiguous row
         # ---- data
         n_max = max(p.n for p in reps)
         nv_max = max(p.n_val for p in reps)
@@ -1073,21 +1133,21 @@ class BatchedTrainer:
                 xb, yb, wb_rows = st.X, st.Y, st.wtrain
             else:
                 if step % chunk == 0:
-                    st.idx_chunk = self._draw_chunk(reps, st.active, st.gens, st.buffers, chunk, B, n_max)
-                if st.row_offsets is None or st.row_offsets.shape[0] != Ra:
-                    st.row_offsets = torch.arange(Ra, dtype=torch.int64)[:, None] * n_max
-                flat = (st.idx_chunk[:, step % chunk, :] + st.row_offsets).reshape(-1)
-                xb = st.flat_X.index_select(0, flat).view(Ra, B, -1)
-                yb = st.flat_Y.index_select(0, flat).view(Ra, B, *st.Y.shape[2:])
+                    st.set_chunk(self._draw_chunk(reps, st.active, st.gens, st.buffers, chunk, B, n_max))
+                xb = st.flat_X.index_select(0, st.step_rows[step % chunk]).view(Ra, B, -1)
+                yb = st.y_chunk[step % chunk]
                 wb_rows = None
-            grads = _loss_grads(params[:L], params[L:], xb, yb, w_mb if wb_rows is None else wb_rows, low, loss)
+            # the gradients land in st.grad, one contiguous (R, P) buffer laid out like st.flat (no
+            # per-step allocation or concatenation)
+            _loss_grads(params[:L], params[L:], xb, yb, w_mb if wb_rows is None else wb_rows, low, loss,
+                        out=st.grads)
             step += 1
-            # One fused kernel call for the whole Adam update [1]_ (adam_update), given each replica's row of the flat parameters as its own tensor: the kernel's vector
-            # loop then starts at every replica's first entry, so a replica's arithmetic does not depend on
-            # which other replicas share the stack; one tensor per replica (not per replica and layer)
-            # keeps the per-call overhead of the optimiser's bookkeeping small.
-            g_slabs = _flatten(grads).unbind(0)
-            adam_update(st.slabs[0], g_slabs, st.slabs[1], st.slabs[2], step, lr=lr_at_step(cfg, step - 1),
+            # One fused kernel call for the whole Adam update [1]_ (adam_update), given each replica's row of
+            # the flat parameters (and of the gradient buffer) as its own tensor: the kernel's vector loop then
+            # starts at every replica's first entry, so a replica's arithmetic does not depend on which other
+            # replicas share the stack; one tensor per replica (not per replica and layer) keeps the per-call
+            # overhead of the optimiser's bookkeeping small.
+            adam_update(st.slabs[0], st.slabs[3], st.slabs[1], st.slabs[2], step, lr=lr_at_step(cfg, step - 1),
                         beta1=b1, beta2=b2, eps=eps)
             if cfg.project_weights:
                 clamp_weights(params[:L], wb)

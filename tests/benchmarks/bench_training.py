@@ -9,6 +9,8 @@ Run as a script (pytest does not collect it):
     python tests/benchmarks/bench_training.py --floor                # how low each arithmetic gets
     python tests/benchmarks/bench_training.py --adam                 # public vs private fused Adam step
     python tests/benchmarks/bench_training.py --against REV --quick  # the trainer of git revision REV vs this one
+    python tests/benchmarks/bench_training.py --steps --quick        # one step vs torch.mm, short rounds
+    python tests/benchmarks/bench_training.py --steps --against REV  # the same, REV's step beside this one's
 
 Data: a 2-sphere in R^3 placed in R^64 by a random rotation, target sin(2 x1) + x2 x3 + noise (sd 0.1),
 test MSE against the noise-free target on 2000 points. All three learners get the same hidden sizes
@@ -203,10 +205,11 @@ def torch_vmap_ensemble(spec, cfg, data, n_tr, seeds):
     return predict, step
 
 
-def matched_mm_gflops(spec, rows, threads, repeats=30):
+def matched_mm_gflops(spec, rows, threads, repeats=30, rounds=3):
     """GFLOP/s of plain ``torch.mm`` on one replica's products of one training step: per layer the
     forward (rows x fan_in)(fan_in x fan_out), the weight gradient and, above the first layer, the input
-    gradient -- the arithmetic the trainer does, without its stacking, its elementwise work or Python."""
+    gradient -- the arithmetic the trainer does, without its stacking, its elementwise work or Python.
+    Best of ``rounds`` rounds of ``repeats`` steps' products."""
     import torch
 
     from manireg._threads import torch_threads
@@ -225,7 +228,7 @@ def matched_mm_gflops(spec, rows, threads, repeats=30):
         for x, y in mats:
             torch.mm(x, y)
         best = math.inf
-        for _ in range(3):
+        for _ in range(rounds):
             t = time.perf_counter()
             for _ in range(repeats):
                 for x, y in mats:
@@ -251,27 +254,174 @@ def step_seconds(spec, replicas, rows, low, steps=60, rounds=3, update="public")
     slabs, as the trainer does). ``update="public"``: ``adam_update``'s public path (torch.optim's
     functional Adam, fused); ``"private"``: its private path (the fused kernel ``torch._fused_adam_``
     called directly, what the trainer uses when torch has it)."""
-    import torch
-
-    from manireg.nets.training import _flatten, _loss_grads, _stacked_init, _unflatten, adam_update
-
-    Ws, bs = _stacked_init(spec, range(replicas))
-    L = len(Ws)
-    flat = _flatten(Ws + bs)  # the trainer's layout: one contiguous row of parameters per replica
-    params = _unflatten(flat, [tuple(t.shape[1:]) for t in Ws + bs])
-    m1, m2 = torch.zeros_like(flat), torch.zeros_like(flat)
-    p_sl, m1_sl, m2_sl = list(flat.unbind(0)), list(m1.unbind(0)), list(m2.unbind(0))
-    x, y = torch.randn(replicas, rows, spec.input_dim), torch.randn(replicas, rows)
+    stepper = trainer_step(spec, replicas, rows, low, update)
     best = math.inf
     for _ in range(rounds):
-        t = time.perf_counter()
-        for k in range(steps):
-            grads = _loss_grads(params[:L], params[L:], x, y, 1.0 / rows, low)
-            g_sl = list(_flatten(grads).unbind(0))
-            adam_update(p_sl, g_sl, m1_sl, m2_sl, k + 1, lr=1e-4, beta1=0.9, beta2=0.999, eps=1e-8,
-                        private=update == "private")
-        best = min(best, (time.perf_counter() - t) / steps)
+        best = min(best, stepper(steps))
     return best
+
+
+def trainer_step(spec, replicas, rows, low=None, update="private", n_rows=None, module=None):
+    """A function ``run(steps)`` -> seconds per step of the trainer's optimiser step on ``replicas`` stacked
+    replicas, as ``BatchedTrainer`` runs it: the minibatch rows gathered with one index_select from a
+    (replicas * n_rows, D) table (skipped when ``n_rows`` is None), the hand-written backward writing into
+    the padded (R, P) gradient buffer, fused Adam on per-replica rows. Validation passes, stopping and
+    replicas leaving the stack are not included. ``module``: the trainer module to take the step from
+    (default this tree's); a module from before the gradient buffer (no ``_ROW_ALIGN``) gets that
+    revision's step: fresh gradients concatenated into one (R, P) tensor and unbound every step."""
+    import torch
+
+    if module is None:
+        from manireg.nets import training as module
+    buffered = hasattr(module, "_ROW_ALIGN")
+    Ws, bs = module._stacked_init(spec, range(replicas))
+    L = len(Ws)
+    shapes = [tuple(t.shape[1:]) for t in Ws + bs]
+    # the trainer's layout: one contiguous (padded) row of parameters per replica
+    flat = module._flatten(Ws + bs, module._ROW_ALIGN) if buffered else module._flatten(Ws + bs)
+    params = module._unflatten(flat, shapes)
+    grad = torch.zeros_like(flat)
+    grads = module._unflatten(grad, shapes)
+    m1, m2 = torch.zeros_like(flat), torch.zeros_like(flat)
+    p_sl, m1_sl, m2_sl, g_sl = (list(t.unbind(0)) for t in (flat, m1, m2, grad))
+    gen = torch.Generator().manual_seed(0)
+    if n_rows is None:
+        x, y = torch.randn(replicas, rows, spec.input_dim), torch.randn(replicas, rows)
+    else:
+        X, Y = torch.randn(replicas * n_rows, spec.input_dim), torch.randn(replicas * n_rows)
+        idx = torch.randint(0, n_rows, (64, replicas * rows), generator=gen)
+        idx += (torch.arange(replicas)[:, None] * n_rows).repeat_interleave(rows, 0).view(-1)[None]
+        ys = Y[idx]
+    count = [0]
+
+    def run(steps):
+        t = time.perf_counter()
+        for _ in range(steps):
+            k = count[0] = count[0] + 1
+            if n_rows is None:
+                xb, yb = x, y
+            elif buffered:  # a chunk's targets gathered once (set_chunk)
+                xb = X.index_select(0, idx[k % 64]).view(replicas, rows, -1)
+                yb = ys[k % 64].view(replicas, rows)
+            else:  # one gather of rows and one of targets per step
+                xb = X.index_select(0, idx[k % 64]).view(replicas, rows, -1)
+                yb = Y.index_select(0, idx[k % 64]).view(replicas, rows)
+            if buffered:
+                module._loss_grads(params[:L], params[L:], xb, yb, 1.0 / rows, low, out=grads)
+                slabs = g_sl
+            else:
+                slabs = module._flatten(module._loss_grads(params[:L], params[L:], xb, yb, 1.0 / rows, low)).unbind(0)
+            module.adam_update(p_sl, slabs, m1_sl, m2_sl, k, lr=1e-6, beta1=0.9, beta2=0.999, eps=1e-8,
+                               private=update == "private")
+        return (time.perf_counter() - t) / steps
+
+    return run
+
+
+def stacked_products(spec, replicas, rows):
+    """A function ``run(steps)`` -> seconds per step of only the trainer's stacked matrix products of one
+    step (forward ``baddbmm``, weight- and input-gradient ``bmm``; the output layer's one-column products
+    excluded, as the trainer does them elementwise) on fixed operands that stay in cache between calls: what
+    the products cost without the rest of the step between them."""
+    import torch
+
+    sizes = [spec.input_dim, *spec.hidden_sizes, 1]
+    R = replicas
+    Ws = [torch.randn(R, a, b) for a, b in zip(sizes[:-2], sizes[1:-1])]
+    bs = [torch.randn(R, 1, b) for b in sizes[1:-1]]
+    hs = [torch.randn(R, rows, a) for a in sizes[:-2]]
+    gs = [torch.randn(R, rows, b) for b in sizes[1:-1]]
+
+    def run(steps):
+        t = time.perf_counter()
+        for _ in range(steps):
+            for i in range(len(Ws)):
+                torch.baddbmm(bs[i], hs[i], Ws[i])
+            for i in range(len(Ws) - 1, -1, -1):
+                torch.bmm(hs[i].transpose(1, 2), gs[i])
+                if i > 0:
+                    torch.bmm(gs[i], Ws[i].transpose(1, 2))
+        return (time.perf_counter() - t) / steps
+
+    return run
+
+
+def step_fractions(quick, replicas=5, rounds=40, steps=15, rev=None, threads=None):
+    """Per n of the grid: one optimiser step of ``replicas`` stacked replicas (the trainer's step,
+    ``trainer_step``) against plain torch.mm on the same products (``replicas`` x one replica's,
+    ``matched_mm_gflops``), both at the trainer's thread count, in ``rounds`` short alternating rounds; the
+    best round of each. Short rounds and the best of many let both sides find the same quiet moments of a
+    shared machine, which a whole fit (one long run) cannot. Also timed in the same rounds: the step's stacked
+    products alone (``stacked_products``), so the table splits a step into products and the rest. ``rev``:
+    also the step of the trainer at that
+    git revision, in the same rounds. ``threads``: torch threads of both sides instead of the trainer's
+    policy (``auto_threads``)."""
+    import os
+
+    from manireg._threads import torch_threads
+    from manireg.nets.training import auto_threads
+    from manireg.theory import size_network
+
+    old = _module_at(rev) if rev else None
+    ns = [256, 512, 1024, 2048] if quick else [256, 512, 1024, 2048, 4096, 8192]
+    print(f"one optimiser step of {replicas} stacked replicas vs torch.mm on the same products, best of {rounds} "
+          f"alternating rounds of {steps} steps; load average {tuple(round(v, 2) for v in os.getloadavg())} "
+          "(2 cores shared with other work)")
+    if old is None:
+        print("| n | width x depth | rows/step | threads | trainer step us | its products alone us | torch.mm us "
+              "| fraction of the mm rate |")
+        print("|---|---|---|---|---|---|---|---|")
+    else:
+        print(f"| n | width x depth | rows/step | threads | step us at {rev} (before) | step us (after) | "
+              "its products alone us | torch.mm us | before, of mm | after, of mm |")
+        print("|---|---|---|---|---|---|---|---|---|---|")
+    for n in ns:
+        n_tr = n - n // 5
+        spec = size_network(n_tr, 2, 1, ambient_dim=64)
+        rows = n_tr if n_tr <= 256 else 128
+        th = auto_threads(spec, replicas * rows) if threads is None else threads
+        n_rows = None if n_tr <= 256 else n_tr
+        runs = {"after": trainer_step(spec, replicas, rows, n_rows=n_rows)}
+        if old is not None:
+            runs["before"] = trainer_step(spec, replicas, rows, n_rows=n_rows, module=old)
+        runs["products"] = stacked_products(spec, replicas, rows)
+        with torch_threads(th):
+            best = {k: math.inf for k in runs}
+            best_mm = math.inf
+            for r in runs.values():
+                r(steps)
+            for _ in range(rounds):
+                for k, r in runs.items():
+                    best[k] = min(best[k], r(steps))
+                rate, flops = matched_mm_gflops(spec, rows, th, repeats=steps, rounds=1)
+                best_mm = min(best_mm, replicas * flops / (rate * 1e9))
+        head = f"| {n} | {spec.width} x {spec.depth} | {rows} | {th or 'torch'} |"
+        if old is None:
+            print(f"{head} {best['after'] * 1e6:.0f} | {best['products'] * 1e6:.0f} | {best_mm * 1e6:.0f} | "
+                  f"{best_mm / best['after']:.2f} |", flush=True)
+        else:
+            print(f"{head} {best['before'] * 1e6:.0f} | {best['after'] * 1e6:.0f} | {best['products'] * 1e6:.0f} | "
+                  f"{best_mm * 1e6:.0f} | "
+                  f"{best_mm / best['before']:.2f} | {best_mm / best['after']:.2f} |", flush=True)
+    print(f"load average at end {tuple(round(v, 2) for v in os.getloadavg())}")
+    return 0
+
+
+def _module_at(rev):
+    """``manireg/nets/training.py`` of git revision ``rev``, loaded as a module of its own."""
+    import importlib.util
+    import os
+    import subprocess
+    import sys
+
+    root = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+    src = subprocess.run(["git", "show", f"{rev}:manireg/nets/training.py"], cwd=root, capture_output=True,
+                         text=True, check=True).stdout
+    spec_ = importlib.util.spec_from_loader("_trainer_at_rev", loader=None)
+    old = importlib.util.module_from_spec(spec_)
+    sys.modules[spec_.name] = old  # dataclasses look their module up
+    exec(compile(src, f"{rev}:manireg/nets/training.py", "exec"), old.__dict__)
+    return old
 
 
 def adam_paths():
@@ -366,27 +516,19 @@ def floor():
     return 0
 
 
-def against(rev, quick):
+def against(rev, quick, rounds=3):
     """The trainer of git revision ``rev`` against the working tree's, the same tasks (5 repeats, the
-    benchmark grid, default float32 config), rounds alternating; per n the best-of-2 seconds of each
-    and each one's fraction of plain torch.mm's rate on the same products."""
-    import importlib.util
+    benchmark grid, default float32 config), rounds alternating; per n the best-of-``rounds`` seconds of
+    each and each one's fraction of plain torch.mm's rate on the same products (timed in every round too,
+    best round: the reference sees the same load as the fits)."""
     import os
-    import subprocess
-    import sys
 
     from manireg._threads import torch_threads  # noqa: F401 - imported by the old module too
     from manireg.nets import BatchedTrainer, ReplicaTask, TrainConfig
     from manireg.nets.training import auto_threads
     from manireg.theory import size_network
 
-    root = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
-    src = subprocess.run(["git", "show", f"{rev}:manireg/nets/training.py"], cwd=root, capture_output=True,
-                         text=True, check=True).stdout
-    spec_ = importlib.util.spec_from_loader("_trainer_at_rev", loader=None)
-    old = importlib.util.module_from_spec(spec_)
-    sys.modules[spec_.name] = old  # dataclasses look their module up
-    exec(compile(src, f"{rev}:manireg/nets/training.py", "exec"), old.__dict__)
+    old = _module_at(rev)
     cfg = TrainConfig(precision="float32")
     ns = [256, 512, 1024, 2048] if quick else [256, 512, 1024, 2048, 4096, 8192]
     print(f"trainer at {rev} (before) against the working tree (after); load average "
@@ -399,10 +541,12 @@ def against(rev, quick):
         spec = size_network(n_tr, 2, 1, ambient_dim=64)
         tasks = [ReplicaTask(X[:n_tr], y[:n_tr], X[n_tr:], y[n_tr:], seed=r) for r, (X, y, _) in enumerate(data)]
         rows = n_tr if n_tr <= cfg.full_batch_threshold else min(cfg.batch_size, n_tr)
-        mm_rate, mm_flops = matched_mm_gflops(spec, rows, auto_threads(spec, 5 * rows))
+        mm_rate = 0.0
         best = {"before": math.inf, "after": math.inf}
         out = {}
-        for _ in range(2):
+        for _ in range(rounds):
+            rate, mm_flops = matched_mm_gflops(spec, rows, auto_threads(spec, 5 * rows))
+            mm_rate = max(mm_rate, rate)
             for name, mod in (("before", old), ("after", None)):
                 cls, conf, task = ((BatchedTrainer, cfg, ReplicaTask) if mod is None
                                    else (mod.BatchedTrainer, mod.TrainConfig(precision="float32"), mod.ReplicaTask))
@@ -427,7 +571,14 @@ def main(argv=None):
     parser.add_argument("--floor", action="store_true", help="only the noise-free floor of each arithmetic")
     parser.add_argument("--adam", action="store_true", help="only the public vs private fused Adam step times")
     parser.add_argument("--against", metavar="REV", help="only: the trainer of git revision REV vs this one")
+    parser.add_argument("--threads", type=int, default=None,
+                        help="with --steps: torch threads of both sides instead of the trainer's policy")
+    parser.add_argument("--steps", action="store_true",
+                        help="only: one optimiser step vs torch.mm on the same products, short alternating rounds "
+                             "(--repeats: stacked replicas, default 5; with --against REV also REV's step)")
     args = parser.parse_args(argv)
+    if args.steps:
+        return step_fractions(args.quick, replicas=args.repeats or 5, rev=args.against, threads=args.threads)
     if args.against:
         return against(args.against, args.quick)
     if args.adam:
@@ -478,6 +629,8 @@ def main(argv=None):
         trainer = BatchedTrainer(spec, cfg)
         res = trainer.fit(tasks)
         tb = time.perf_counter() - t
+        # the reference again right after the fit, best of the two: closer to the load the fit saw
+        mm_rate = max(mm_rate, matched_mm_gflops(spec, rows, auto_threads(spec, repeats * rows))[0])
         mse_b = float(np.mean((trainer.predict(Xte) - fte) ** 2, axis=1).mean())
         flops = sum(6.0 * spec.n_parameters * rows * r.steps for r in res)
         gfl = flops / tb / 1e9
