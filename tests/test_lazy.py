@@ -179,3 +179,22 @@ def test_rows_over_many_read_blocks_with_repeats_equal_the_array(written, ext):
     got = t.rows(idx)
     assert got.dtype == np.float64
     np.testing.assert_array_equal(got, full.X[idx])
+
+
+def test_id_column_is_refused_on_disk_as_in_memory(tmp_path):
+    """A row-number column among the features (common practice: it numbers the rows and carries no geometry)
+    is refused by open_table with the same --drop fix as load_table, judged on the first block of rows."""
+    import pandas as pd
+
+    rng = np.random.default_rng(2)
+    df = pd.DataFrame(rng.normal(size=(300, 3)), columns=["a", "b", "c"])
+    df.insert(0, "unit_id", np.arange(300))
+    df["y"] = rng.normal(size=300)
+    path = tmp_path / "ids.parquet"
+    df.to_parquet(path)
+    for opener in (load_table, open_table):
+        with pytest.raises(DataValidationError, match="--drop unit_id"):
+            opener(path, "y")
+    t = open_table(path, "y", drop=["unit_id"])
+    assert t.feature_names == ["a", "b", "c"]
+    assert open_table(path, "y", features=["unit_id", "a"]).shape == (300, 2)  # named on purpose: kept

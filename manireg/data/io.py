@@ -103,12 +103,23 @@ def _suggest(name, cols) -> str:
 _ID_NAMES = ("id", "index", "idx", "key", "row", "sample", "unnamed: 0")
 
 
+def _named_like_id(name: str) -> bool:
+    low = name.strip().lower()
+    return low in _ID_NAMES or low.endswith(("_id", " id", "-id")) or low.startswith(("id_", "id ")) or low.endswith("id") and len(low) <= 4
+
+
+def _id_columns_error(ids, p, seen=""):
+    return DataValidationError(
+        f"column(s) {_preview(ids)} in '{p}' look like row identifiers (named like an ID, distinct integers{seen}) "
+        f"and would be used as coordinates. Leave them out with --drop {' '.join(ids[:3])} (drop=[...] in "
+        "Python), or name every feature with --features COL ... (features=[...]) to keep them."
+    )
+
+
 def _looks_like_id(name: str, values) -> bool:
     """A column named like a row identifier whose values are distinct integers (common practice: such a
     column numbers the rows and carries no geometry)."""
-    low = name.strip().lower()
-    named = low in _ID_NAMES or low.endswith(("_id", " id", "-id")) or low.startswith(("id_", "id ")) or low.endswith("id") and len(low) <= 4
-    if not named:
+    if not _named_like_id(name):
         return False
     v = np.asarray(values, dtype=float)
     return bool(np.all(np.isfinite(v)) and np.all(v == np.round(v)) and np.unique(v).size == v.size)
@@ -158,11 +169,7 @@ def _split_frame(frame, target, columns, p, drop=None):
     if columns is None:
         ids = [c for c in feats if _looks_like_id(c, frame[c])]
         if ids:
-            raise DataValidationError(
-                f"column(s) {_preview(ids)} in '{p}' look like row identifiers (named like an ID, distinct integers) "
-                f"and would be used as coordinates. Leave them out with --drop {' '.join(ids[:3])} (drop=[...] in "
-                "Python), or name every feature with --features COL ... (features=[...]) to keep them."
-            )
+            raise _id_columns_error(ids, p)
     if y is not None and not pd.api.types.is_numeric_dtype(y):
         raise DataValidationError(f"target column '{tname}' in '{p}' is not numeric. A regression target must be numbers.")
     X = frame[feats].to_numpy(dtype=np.float64)

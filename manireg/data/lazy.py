@@ -430,9 +430,25 @@ def open_table(path, target=None, *, features=None, drop=None, chunk_rows: int |
         raise DataValidationError(f"'{p}' has {table.shape[0]} data row(s); at least 2 are needed.")
     if table.shape[1] == 0:
         raise DataValidationError(f"'{p}' has no feature columns besides the target '{table.target_name}'. Add features.")
+    if features is None:
+        _refuse_id_columns(table, p)
     if validate:
         table.scan()
     return table
+
+
+def _refuse_id_columns(table, p):
+    """The check of load_table, on the first block of rows: a feature named like an ID whose values there are
+    distinct integers is refused with the --drop fix (only columns with such a name are read)."""
+    from .io import _id_columns_error, _looks_like_id, _named_like_id
+
+    named = [j for j, c in enumerate(table.feature_names) if _named_like_id(c)]
+    if not named:
+        return
+    _, first = next(table.chunks(chunk_rows=min(table.shape[0], 4096)))
+    ids = [table.feature_names[j] for j in named if _looks_like_id(table.feature_names[j], first[:, j])]
+    if ids:
+        raise _id_columns_error(ids, p, seen=f" in the first {len(first):,} rows")
 
 
 def _columns_from(names, target_idx, features, drop, p):

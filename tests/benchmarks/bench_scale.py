@@ -4,9 +4,11 @@ LocalCluster. Prints time, peak memory (psutil) and the load average beside each
     python tests/benchmarks/bench_scale.py geometry --rows 100000 300000 1000000 --dim 256 --dir DIR
     python tests/benchmarks/bench_scale.py ann --rows 100000 --dim 256 --dir DIR
     python tests/benchmarks/bench_scale.py campaign --rows 300000 --dim 256 --sizes 10000 100000 250000 --repeats 1 --each-size --dir DIR
+    python tests/benchmarks/bench_scale.py cell --rows 300000 --dim 256 --sizes 250000 --learners net knn --dir DIR
     python tests/benchmarks/bench_scale.py cli --rows 300000 --dim 256 --sizes 1000 10000 100000 250000 --repeats 2 --learners net --dir DIR
 
-``cli`` starts a dask scheduler and ``--workers`` single-thread workers as processes of their own (the
+``cell`` runs one cell of each size and learner in a fresh process as a worker runs it and reports the peak
+memory of each step (reading rows, preparing, training, the neighbour graph, predicting). ``cli`` starts a dask scheduler and ``--workers`` single-thread workers as processes of their own (the
 ``dask scheduler`` / ``dask worker`` commands), runs ``manireg curves FILE --on-disk --scheduler ADDRESS`` as a
 user would, and reports the peak resident memory of the command, the scheduler and each worker.
 
@@ -202,6 +204,62 @@ def one_campaign(path, sizes, repeats, workers, learners=("net", "knn")):
             "scheduler_in_client_process": sched_pid == os.getpid()}
 
 
+def one_cell(path, n, learner="net"):
+    """One campaign cell of size ``n`` run in this process (``run_unit``, as a worker runs it), with the peak
+    resident memory of each step: reading the rows, preparing them, training, the neighbour graph, predicting."""
+    import functools
+    import gc
+
+    import manireg.data.lazy as lazy
+    import manireg.nets.training as training
+    from manireg.curves import LearnerSpec
+    from manireg.curves.campaign import Campaign
+    from manireg.curves.execution import run_unit
+    from manireg.data import open_table
+
+    marks = [(lazy.LazyTable, "rows", "read rows"), (training._Prepared, "__init__", "prepare"),
+             (training.BatchedTrainer, "_fit_group", "train"), (training.BatchedTrainer, "predict", "predict")]
+    if learner == "knn":
+        import pynndescent
+
+        marks.append((pynndescent.NNDescent, "__init__", "neighbour graph"))
+    peak = Peak()
+
+    def mark(f, name):
+        @functools.wraps(f)
+        def g(*a, **k):
+            old, peak.phase = peak.phase, name
+            try:
+                return f(*a, **k)
+            finally:
+                peak.phase = old
+        return g
+
+    for owner, attr, name in marks:
+        setattr(owner, attr, mark(getattr(owner, attr), name))
+    peak.phase = "libraries and campaign"
+    spec = (LearnerSpec("net", params={"max_steps": 300, "eval_every": 50, "patience_steps": 200, "min_steps": 50})
+            if learner == "net" else LearnerSpec(learner))
+    store = path + f".cell-{os.getpid()}.sqlite"
+    camp = Campaign(X=open_table(path, -1), y=None, sizes=[1000, n], repeats=1, learners=[spec], dimension=4.0,
+                    smoothness=1.0, seed=0, name="bench", store=store, test_size=2000)
+    cells = [c for c in camp.cells() if c.n == n]
+    gc.collect()
+    peak.phase = "idle"
+    time.sleep(0.3)
+    t0 = time.perf_counter()
+    peak.phase = "cell (outside the steps below)"
+    rows = run_unit(cells, camp.data)
+    sec = time.perf_counter() - t0
+    peak.phase = "after"
+    time.sleep(0.2)
+    total = peak.done()
+    os.remove(store)
+    return {"learner": learner, "n": n, "status": rows[0]["status"], "error": rows[0]["error"],
+            "test_mse": rows[0]["test_mse"], "seconds": round(sec, 1), "peak_mb": round(total / 2**20),
+            "phase_peak_mb": {k: round(v / 2**20) for k, v in peak.phases.items()}}
+
+
 def cli_campaign(path, sizes, repeats, workers, learners, port=8786):
     """``manireg curves --on-disk --scheduler`` against a scheduler and workers started as their own processes
     (psutil watches each every 50 ms; a worker's memory includes the processes its nanny starts)."""
@@ -277,7 +335,7 @@ def _child(kind, kwargs):
 
 def main():
     ap = argparse.ArgumentParser()
-    ap.add_argument("what", choices=["geometry", "ann", "campaign", "cli"])
+    ap.add_argument("what", choices=["geometry", "ann", "campaign", "cli", "cell"])
     ap.add_argument("--rows", type=int, nargs="+", default=[100_000])
     ap.add_argument("--dim", type=int, default=256)
     ap.add_argument("--dir", default=os.environ.get("TMPDIR", "/tmp"))
@@ -299,6 +357,14 @@ def main():
             r = _child("ann", {"path": p, "k": 20, "queries": 500})
         elif a.what == "cli":
             r = cli_campaign(p, a.sizes, a.repeats, a.workers, a.learners)
+        elif a.what == "cell":
+            for n in a.sizes:
+                for learner in a.learners:
+                    load = os.getloadavg()[0]
+                    r = _child("cell", {"path": p, "n": n, "learner": learner})
+                    r.update(rows=rows, dim=a.dim, load_before=round(load, 2), load_after=round(os.getloadavg()[0], 2))
+                    print(json.dumps(r), flush=True)
+            continue
         else:
             # a campaign needs two sizes: each size runs beside a 1,000-row one
             for sizes in ([sorted({1000, n}) for n in a.sizes] if a.each_size else [a.sizes]):
