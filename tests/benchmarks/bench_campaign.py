@@ -84,7 +84,7 @@ def main(argv=None):
     store = os.path.join(tempfile.mkdtemp(prefix="bench-campaign-"), "campaign.sqlite")
     net = LearnerSpec("net", params={} if args.precision == "auto" else {"precision": args.precision})
     campaign = Campaign.from_regression_sample(sample, sizes=sizes, repeats=repeats, test_size=test_size, seed=0,
-                                         label="bench", store=store, learners=[net])
+                                         name="bench", store=store, learners=[net])
     print(f"grid: sizes {sizes}, {repeats} repeats, D=64, d=3, {len(campaign.cells())} cells; "
           f"executor={args.executor}, n_jobs={args.n_jobs}, torch_threads={args.torch_threads}")
 
