@@ -6,8 +6,9 @@ noise_std=0.1, seed=1)``; sizes 256, 512, ..., 8192 (6 sizes), 5 repeats, a fixe
 * manireg: ``Campaign(...).run(executor=..., n_jobs=c, torch_threads=1)`` with the default net learner (sized
   by ``size_network``, default ``TrainConfig`` but the arithmetic given by ``--precision``); the repeats of
   each n are one ``BatchedTrainer.fit`` call. Run once per core setting of ``--cores`` (``c`` worker
-  processes of one torch thread each; 1 core runs in process), each setting twice: a first campaign (new
-  workers) and a second campaign with its own name in the same session (joblib reuses the workers).
+  processes of one torch thread each; 1 core runs in process), each setting of several cores twice: a first
+  campaign (new workers) and a second campaign with its own name in the same session (joblib reuses the
+  workers).
 * reference: the same cells (same nested training sets of size n, same test set) run one after another with
   ``sklearn.neural_network.MLPRegressor(hidden_layer_sizes=spec.hidden_sizes, early_stopping=True,
   validation_fraction=0.2, random_state=seed)`` on standardised inputs, i.e. the same hidden sizes and the
@@ -158,7 +159,8 @@ def main(argv=None):
 
     runs = []
     for cores in settings:
-        for which in ("first", "second")[: 1 if args.no_second else 2]:
+        # a second campaign shows warm workers; one core runs in process, where there are none to keep warm
+        for which in ("first", "second")[: 1 if args.no_second or cores == 1 else 2]:
             r = run_manireg(make, f"bench-{cores}-{which}", args.executor, cores)
             r.update(cores=cores, which=which, precision=args.precision)
             runs.append(r)
