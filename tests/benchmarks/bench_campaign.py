@@ -16,11 +16,13 @@ noise_std=0.1, seed=1)``; sizes 256, 512, ..., 8192 (6 sizes), 5 repeats, a fixe
   ``threadpoolctl.threadpool_limits(1, "blas")`` (threadpoolctl comes with scikit-learn).
 
 Printed, in one run: a row per (core setting, first/second campaign) with the wall time (data generation
-excluded, store writes included), the ratio sklearn / manireg (> 1: manireg faster), the load average
-before and after, and the time split (worker start-up, training, store, the rest); a per-n table of mean
-test errors (manireg's rows are the same bit for bit in every setting; checked) with "equal or lower error";
-and a GOALS block with MET or SHORTFALL and the measured cause. The machine may be shared with other jobs:
-the load average beside each figure says how busy it was.
+excluded, store writes included; torch is already imported here when the campaign is built, as the net
+learner sizes its nets, so the in-process runs pay no import inside the timed part), the ratio sklearn /
+manireg (> 1: manireg faster), the load average before and after, and the time split (worker start-up,
+training, store, the rest); a per-n table of mean test errors (manireg's rows are the same bit for bit in
+every setting; checked) with "equal or lower error"; and a GOALS block with MET or SHORTFALL and the
+measured cause. The machine may be shared with other jobs: the load average beside each figure says how
+busy it was.
 
 Run::
 
@@ -147,7 +149,8 @@ def main(argv=None):
         def make(name):
             return Campaign.from_regression_sample(
                 sample, sizes=sizes, repeats=repeats, test_size=test_size, seed=0, name=name,
-                store=os.path.join(folder, name + ".sqlite"), learners=[LearnerSpec("net", params={"precision": precision})])
+                store=os.path.join(folder, name + ".sqlite"),
+                learners=[LearnerSpec("net", params={"precision": precision})])
         return make
 
     make = maker(args.precision)
@@ -168,7 +171,7 @@ def main(argv=None):
                   f"({r['units']} units; {fmt_split(r['split'])}); load {r['load'][0]:.2f} -> {r['load'][1]:.2f}"
                   + (f"; auto: {r['reason']}" if r["reason"] else ""))
 
-    from manireg.nets.training import native_bfloat16  # after the runs: the first in-process run pays the torch import
+    from manireg.nets.training import native_bfloat16
 
     bf16_note = None
     if args.precision != "bfloat16":
