@@ -60,11 +60,15 @@ EXECUTORS = ("auto", "inprocess", "processes", "dask")
 WORKER_START_SECONDS = 2.4
 #: Seconds this process needs to import torch and the trainer before its first in-process unit
 #: (``python -c "import manireg.curves.execution, manireg.nets.training"``: 1.7 s idle; 0 once imported).
+#: A campaign with net learners imports torch when it is built (the nets are sized then), so in practice
+#: this counts only for campaigns without nets, where it overstates the in-process time (a kNN unit needs
+#: no torch): a conservative error, towards worker processes.
 IMPORT_SECONDS = 1.7
 #: Estimated flops (:meth:`Learner.cell_cost`) done per second by one unit on one thread. The estimate counts
 #: every allowed step, nets usually stop earlier, so this is a rate of the estimate, not of the CPU: the
-#: quick benchmark grid (2.8e11 estimated flops, float32) ran in process in 7.8-10.4 s on a loaded 2-core
-#: machine (load 2-3), 2.7e10-3.6e10 per second.
+#: quick benchmark grid (2.8e11 estimated flops, float32) ran in process in 6.0-10.4 s on a loaded 2-core
+#: machine (load 2-5), 2.7e10-4.6e10 per second; the standard grid (5.2e12) in 170-173 s at load 1.8-3.0,
+#: where this rate predicts 175 s (``tests/benchmarks/bench_campaign.py``, one core).
 FLOP_RATE = 3.0e10
 #: joblib's loky executor keeps idle workers this long (its ``idle_worker_timeout``, 300 s by default);
 #: ``"auto"`` counts workers used less than this long ago (with a margin) as warm.
