@@ -166,7 +166,7 @@ def test_progress_bar_counts_cells(tmp_path, capsys):
 
 def test_bad_executor(tmp_path):
     campaign = make_campaign(tmp_path / "s.sqlite", learners=("knn",))
-    with pytest.raises(ValueError, match="'executor' parameter of run_cells must be one of"):
+    with pytest.raises(ValueError, match="'executor' parameter of run_cells must be one of.*auto"):
         campaign.run(executor="threads")
     assert len(campaign.result().rows) == 0
 
@@ -193,3 +193,46 @@ def test_stop_flag_pauses_between_units_and_run_resumes(tmp_path):
     assert len(seen) == 1 and res.summary["stopped"] and 0 < len(res.rows) < total
     again = campaign.run(progress=False)  # resume
     assert len(again.rows) == total and again.summary["skipped"] == len(res.rows) and not again.summary["stopped"]
+
+
+def test_auto_picks_by_estimated_time_and_gives_the_same_rows(tmp_path, reference, monkeypatch):
+    # rows must not depend on the executor "auto" picks (same bit-for-bit comparison as above)
+    monkeypatch.setattr(ex, "_last_pool", {})
+    monkeypatch.setattr(ex, "FLOP_RATE", 1e30)  # any work is instant: starting workers never pays
+    res = make_campaign(tmp_path / "a.sqlite").run(executor="auto", n_jobs=2, progress=False)
+    assert res.summary["executor"] == "inprocess" and "flops" in res.summary["executor_reason"]
+    _compare(res.rows, reference)
+    monkeypatch.setattr(ex, "FLOP_RATE", 1.0)  # one flop a second: two workers halve hours of work
+    res = make_campaign(tmp_path / "b.sqlite").run(executor="auto", n_jobs=2, progress=False)
+    assert res.summary["executor"] == "processes"
+    _compare(res.rows, reference)
+
+
+def test_auto_rule_threshold_and_warm_workers(tmp_path, monkeypatch):
+    import time
+
+    import torch  # noqa: F401 - the rule counts no import cost once torch is loaded here
+
+    campaign = make_campaign(tmp_path / "s.sqlite", learners=("net",))
+    cells, data = campaign.cells(), campaign.data
+    units = make_units(cells, data, 2)
+    costs = [len(u) * ex._cell_cost(u, data) for u in units]
+    total = sum(costs)
+    assert max(costs) <= total / 2  # the balanced units fit a worker's share, so the closed form applies
+    monkeypatch.setattr(ex, "_last_pool", {})
+    monkeypatch.setattr(ex, "WORKER_START_SECONDS", 1.0)
+    # closed form of the rule (choose_executor's docstring): in process iff W <= S r p / (p - 1), here
+    # p = 2, S = 1 s: iff r >= W / 2 per second
+    monkeypatch.setattr(ex, "FLOP_RATE", total / 2 * 1.01)
+    assert ex.choose_executor(cells, data, 2)[0] == "inprocess"
+    monkeypatch.setattr(ex, "FLOP_RATE", total / 2 * 0.99)
+    assert ex.choose_executor(cells, data, 2)[0] == "processes"
+    # workers used a moment ago cost no start-up: processes at any rate; one worker or one cell: in process
+    monkeypatch.setattr(ex, "FLOP_RATE", total * 1e6)
+    assert ex.choose_executor(cells, data, 2)[0] == "inprocess"
+    ex._last_pool[2] = time.monotonic()
+    assert ex.choose_executor(cells, data, 2)[0] == "processes"
+    assert ex.choose_executor(cells, data, 1)[0] == "inprocess"
+    assert ex.choose_executor(cells[:1], data, 2)[0] == "inprocess"
+    ex._last_pool[2] = time.monotonic() - ex.WARM_SECONDS - 1  # joblib has let them go by now
+    assert ex.choose_executor(cells, data, 2)[0] == "inprocess"

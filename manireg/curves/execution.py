@@ -11,6 +11,11 @@ flight.
 
 Executors:
 
+``"auto"``
+    ``"inprocess"`` when the estimated work is too small to pay for starting worker processes, else
+    ``"processes"`` (:func:`choose_executor` has the rule and its measured constants). Workers of an earlier
+    ``"processes"`` run of this session are reused (joblib keeps its loky executor alive for
+    :data:`WARM_SECONDS` after a run [1]_), and ``"auto"`` counts them as already started.
 ``"inprocess"``
     Units run one after another in this process.
 ``"processes"``
@@ -44,10 +49,32 @@ from manireg._validation import check_choice, check_int
 from manireg.curves.learners import make_learner
 from manireg.curves.sweep import ROW_COLUMNS, canonical_json
 
-__all__ = ["run_cells", "run_unit", "make_units", "EXECUTORS", "RunSummary", "SchedulerUnreachable", "WorkerLost",
-           "SCHEDULER_TIMEOUT"]
+__all__ = ["run_cells", "run_unit", "make_units", "choose_executor", "EXECUTORS", "RunSummary", "SchedulerUnreachable",
+           "WorkerLost", "SCHEDULER_TIMEOUT"]
 
-EXECUTORS = ("inprocess", "processes", "dask")
+EXECUTORS = ("auto", "inprocess", "processes", "dask")
+
+#: Seconds a fresh worker process needs before its first unit runs: spawn, ``import torch`` and the trainer,
+#: receiving the campaign data. Measured by ``tests/benchmarks/bench_campaign.py`` (first arrival minus that
+#: unit's training time) on a 2-core machine: 2.1-2.4 s when idle, more under load.
+WORKER_START_SECONDS = 2.4
+#: Seconds this process needs to import torch and the trainer before its first in-process unit
+#: (``python -c "import manireg.curves.execution, manireg.nets.training"``: 1.7 s idle; 0 once imported).
+#: A campaign with net learners imports torch when it is built (the nets are sized then), so in practice
+#: this counts only for campaigns without nets, where it overstates the in-process time (a kNN unit needs
+#: no torch): a conservative error, towards worker processes.
+IMPORT_SECONDS = 1.7
+#: Estimated flops (:meth:`Learner.cell_cost`) done per second by one unit on one thread. The estimate counts
+#: every allowed step, nets usually stop earlier, so this is a rate of the estimate, not of the CPU: the
+#: quick benchmark grid (2.8e11 estimated flops, float32) ran in process in 6.0-10.4 s on a loaded 2-core
+#: machine (load 2-5), 2.7e10-4.6e10 per second; the standard grid (5.2e12) in 170-173 s at load 1.8-3.0,
+#: where this rate predicts 175 s (``tests/benchmarks/bench_campaign.py``, one core).
+FLOP_RATE = 3.0e10
+#: joblib's loky executor keeps idle workers this long (its ``idle_worker_timeout``, 300 s by default);
+#: ``"auto"`` counts workers used less than this long ago (with a margin) as warm.
+WARM_SECONDS = 240.0
+
+_last_pool = {}  # worker count -> time.monotonic() when a "processes" run with that many workers ended
 
 #: Seconds to wait for a dask scheduler given by address before giving up with :class:`SchedulerUnreachable`.
 SCHEDULER_TIMEOUT = 15.0
@@ -118,6 +145,40 @@ def make_units(cells, data=None, n_workers=1) -> list:
     return [units[k] for k in order]
 
 
+def choose_executor(cells, data, n_jobs=None) -> tuple:
+    """The executor ``"auto"`` picks for these (pending) cells: ``("inprocess" or "processes", reason)``.
+
+    The rule compares two wall-time estimates, with W the estimated flops of all cells
+    (:meth:`Learner.cell_cost`), r = :data:`FLOP_RATE`, p the worker count and U the costliest unit after
+    :func:`make_units` balanced them over p workers:
+
+    * in process: ``I + W / r``, where I = :data:`IMPORT_SECONDS` if torch is not yet imported here, else 0;
+    * worker processes: ``S + max(W / p, U) / r``, where S = :data:`WORKER_START_SECONDS`, or 0 when this
+      process ran ``"processes"`` with p workers less than :data:`WARM_SECONDS` ago (joblib reuses them).
+
+    In process wins when ``I + W/r <= S + max(W/p, U)/r``; with U <= W/p that is
+    ``W <= (S - I) r p / (p - 1)``: with the constants above, 4.2e10 flops in a fresh process (torch not
+    loaded: the import is most of a worker's start-up too) and 1.4e11 flops (about 4.8 s of work) once torch
+    is loaded, for two cold workers. With one worker, or one cell, processes never win.
+    Rows do not depend on the choice (see the module docstring).
+    """
+    import time
+
+    workers = n_jobs or os.cpu_count() or 1
+    if workers <= 1 or len(cells) <= 1:
+        return "inprocess", f"{workers} worker(s), {len(cells)} cell(s): nothing to share"
+    units = make_units(cells, data, workers)
+    costs = [len(u) * _cell_cost(u, data) for u in units]
+    total = sum(costs)
+    load = "torch" not in sys.modules
+    warm = time.monotonic() - _last_pool.get(workers, -1e18) < WARM_SECONDS
+    t_in = (IMPORT_SECONDS if load else 0.0) + total / FLOP_RATE
+    t_proc = (0.0 if warm else WORKER_START_SECONDS) + max(total / workers, max(costs)) / FLOP_RATE
+    why = (f"estimated {total:.2g} flops: {t_in:.1f} s in process{' (with the torch import)' if load else ''}, "
+           f"{t_proc:.1f} s on {workers} {'warm' if warm else 'new'} workers")
+    return ("inprocess" if t_in <= t_proc else "processes"), why
+
+
 def _base_row(cell):
     return {"key": cell.key, "campaign": cell.campaign, "learner": cell.learner.name, "n": cell.n,
             "repeat": cell.repeat, "seed": cell.seed, "config_json": canonical_json(cell.config)}
@@ -175,7 +236,9 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
     data : CampaignData
         From :func:`manireg.curves.sweep.prepare` (the same the cells were expanded from).
     store : ResultStore
-    executor : {"inprocess", "processes", "dask"}, default="inprocess"
+    executor : {"auto", "inprocess", "processes", "dask"}, default="inprocess"
+        ``"auto"``: in process or worker processes, whichever :func:`choose_executor` estimates to finish
+        first; the summary's ``executor`` says which ran and ``executor_reason`` why.
     n_jobs : int, optional
         Worker processes for ``"processes"`` (default: CPU count) and workers of the local dask cluster
         started when ``executor="dask"`` has no ``scheduler`` (default 2).
@@ -218,6 +281,9 @@ def run_cells(cells, data, store, executor="inprocess", n_jobs=None, scheduler=N
     summary = RunSummary(total=total, skipped=total - len(pending), ran=0, failed=0, executor=executor)
     if not pending:
         return summary
+    if executor == "auto":
+        executor, summary["executor_reason"] = choose_executor(pending, data, n_jobs)
+        summary["executor"] = executor
     bar = _progress(total, total - len(pending), progress, getattr(data, "name", "campaign"))
 
     def stopped():
@@ -279,6 +345,8 @@ def _cell_cost(unit, data):
 
 
 def _run_joblib(units, data, n_jobs, torch_threads, record):
+    import time
+
     from joblib import Parallel, delayed
 
     par = Parallel(n_jobs=n_jobs, backend="loky", return_as="generator_unordered")
@@ -291,6 +359,7 @@ def _run_joblib(units, data, n_jobs, torch_threads, record):
         close = getattr(gen, "close", None)
         if close is not None:
             close()  # on KeyboardInterrupt: stop dispatching, abort what is queued
+        _last_pool[n_jobs] = time.monotonic()  # joblib keeps these workers for the next run (choose_executor)
 
 
 def _run_dask(cells, data, scheduler, n_workers, torch_threads, record):
