@@ -615,7 +615,7 @@ def main(argv=None):
               f"{'x torch1':>8} {'x sklearn':>9} | {'GFLOP/s':>7} {'of 2048':>7} {'of mm':>6} {'stops':>14}")
     print(header)
     tot = {"b": 0.0, "v": 0.0, "t": 0.0, "s": 0.0, "flops": 0.0}
-    table = []
+    table, goals = [], []
     for n in ns:
         n_val = n // 5
         data = [make_data(n, seed=1000 * n + r) for r in range(repeats)]
@@ -667,6 +667,12 @@ def main(argv=None):
         tot["s"] += ts
         stops = ",".join(sorted({r.stop_reason for r in res}))
         table.append((n, spec.width, spec.depth, rows, gfl, mm_rate, of_mm))
+        steps = [r.steps for r in res]
+        goals.append({"n": n, "of_mm": of_mm, "x_sklearn": ts / tb, "mse": mse_b, "mse_sklearn": mse_s,
+                      # what the products do not explain: seconds per step of the stack beyond torch.mm's time,
+                      # and how tall the stack was on average (replicas stop at different steps)
+                      "beyond_us": (tb - sum(steps) * mm_flops / (mm_rate * 1e9)) / max(steps) * 1e6,
+                      "mm_us": mm_flops / (mm_rate * 1e9) * 1e6, "mean_stack": sum(steps) / max(steps)})
         print(f"{n:>6} {spec.width:>5} {spec.depth:>5} | {tb:>9.2f} {tv:>8.2f} {tt:>8.2f} {ts:>9.2f} | {mse_b:>11.5f} "
               f"{mse_v:>9.5f} {mse_t:>10.5f} {mse_s:>11.5f} | {tv / tb:>6.2f} {tt / tb:>8.2f} {ts / tb:>9.2f} | "
               f"{gfl:>7.2f} {gfl / peak:>7.3f} {of_mm:>6.3f} {stops:>14}", flush=True)
@@ -679,7 +685,23 @@ def main(argv=None):
     print("|---|---|---|---|---|---|")
     for n, w, dpt, rows, gfl, mm_rate, of_mm in table:
         print(f"| {n} | {w} x {dpt} | {rows} | {gfl:.2f} | {mm_rate:.2f} | {of_mm:.2f} |")
+    print_goals(goals, args.precision)
     return 0
+
+
+def print_goals(goals, precision):
+    """The trainer goals per n, MET or SHORTFALL, and for a shortfall the measured split of a step's time."""
+    print(f"\nGOALS ({precision}; the machine's load moves these figures: compare within one run)")
+    for g in goals:
+        rate = "MET" if g["of_mm"] >= 0.6 else "SHORTFALL"
+        fast = "MET" if g["x_sklearn"] >= 10 and g["mse"] <= g["mse_sklearn"] else "SHORTFALL"
+        line = (f"  n={g['n']}: fraction of the mm rate {g['of_mm']:.2f} (goal 0.6) {rate}; x{g['x_sklearn']:.1f} vs "
+                f"sklearn (goal 10x at equal or lower error; error {g['mse']:.5f} vs {g['mse_sklearn']:.5f}) {fast}")
+        if rate == "SHORTFALL":
+            line += (f"\n      cause: {g['beyond_us']:.0f} us per stacked step beyond the products (one replica's "
+                     f"products take {g['mm_us']:.0f} us at torch.mm's rate); the stack held {g['mean_stack']:.1f} "
+                     "replicas on average, so that fixed cost is shared by few")
+        print(line)
 
 
 if __name__ == "__main__":
