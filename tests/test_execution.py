@@ -236,3 +236,26 @@ def test_auto_rule_threshold_and_warm_workers(tmp_path, monkeypatch):
     assert ex.choose_executor(cells[:1], data, 2)[0] == "inprocess"
     ex._last_pool[2] = time.monotonic() - ex.WARM_SECONDS - 1  # joblib has let them go by now
     assert ex.choose_executor(cells, data, 2)[0] == "inprocess"
+
+
+def test_a_unit_gives_its_freed_memory_back(monkeypatch, tmp_path):
+    """Workers run unit after unit: each unit ends by collecting garbage and trimming the C heap, so a large
+    cell's freed pages do not stay in the worker's resident memory under the next cell (glibc's malloc_trim,
+    common practice for long-lived workers). Here: the trim runs once per unit, a failing unit included."""
+    from manireg.curves import execution
+
+    calls = []
+    monkeypatch.setattr(execution, "_give_back_memory", lambda: calls.append(1))
+    camp = make_campaign(tmp_path / "s.sqlite", learners=("knn",))
+    cell = camp.cells()[0]
+    assert execution.run_unit([cell], camp.data)[0]["status"] == "ok" and calls == [1]
+    from manireg.curves.learners import KNNLearner
+
+    def boom(self, cells, data):
+        raise MemoryError("a cell too large for this worker")
+
+    monkeypatch.setattr(KNNLearner, "run", boom)
+    rows = execution.run_unit([cell], camp.data)
+    assert rows[0]["status"] == "failed" and "MemoryError" in rows[0]["error"] and calls == [1, 1]
+    monkeypatch.undo()
+    execution._give_back_memory()  # the real one runs here (glibc or not) without raising

@@ -415,6 +415,8 @@ class QueryNeighbors(ResultMixin):
 
 #: Queries per block when the approximate search reads its answers from the graph.
 _GRAPH_BLOCK = 8192
+#: Trees and candidates per row of the kNN baselines' neighbour-descent graph (see query_neighbors).
+_GRAPH_TREES, _GRAPH_CANDIDATES = 8, 20
 
 
 def query_neighbors(reference, queries, k: int, *, method: str = "auto", random_state: int = 0,
@@ -471,8 +473,13 @@ def query_neighbors(reference, queries, k: int, *, method: str = "auto", random_
     else:
         U = np.empty((n + extra.shape[0], reference.shape[1]), dtype=np.float32)  # cast in place: no float64 stack
         U[:n], U[n:] = reference, extra
-    graph = NNDescent(U, n_neighbors=max(width, 10), random_state=random_state, n_jobs=1,
-                      low_memory=True).neighbor_graph[0]
+    # 8 trees and 20 candidates instead of the library's defaults (about 5 + n^0.5 / 20 trees, up to 60
+    # candidates): the same recall where measured (1.000 at k = 20 and 44 on 1e5 rows of a 4-d graph manifold
+    # in R^256; 1.000 at k = 40 on 3e4 rows of 4- and 10-spheres in R^50) with a third of the builder's memory
+    # (179 MB instead of 550 MB over the data at 1e5 x 256, width 85) and less time; recall is still
+    # measured where asked (``recall_queries``) and a query left short is searched exactly
+    graph = NNDescent(U, n_neighbors=max(width, 10), random_state=random_state, n_jobs=1, low_memory=True,
+                      n_trees=_GRAPH_TREES, max_candidates=_GRAPH_CANDIDATES).neighbor_graph[0]
     del U
     # each query's first k reference rows, a block of queries at a time (whole-graph int64 copies were 0.6 GB
     # of a 2.5e5-row campaign cell's memory)
