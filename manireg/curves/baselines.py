@@ -129,7 +129,7 @@ def knn_regress(X_train, y_train, X_query, k, *, method="auto", random_state=0) 
     ----------
     .. [1] Györfi, Kohler, Krzyżak, Walk (2002), Ch. 6.
     """
-    from manireg.geometry.neighbors import query_neighbors
+    from manireg.geometry.neighbors import leading_rows_of, query_neighbors
 
     owner = "knn_regress"
     # float32 rows stay float32 (a campaign's large kNN cells read them so: half the memory, and the
@@ -145,17 +145,11 @@ def knn_regress(X_train, y_train, X_query, k, *, method="auto", random_state=0) 
             f"{owner}: X_query has {X_query.shape[1]} features but X_train has {X_train.shape[1]}; they must match."
         )
     n = X_train.shape[0]
-    same = X_query.shape[0] >= n and (_leading_view(X_train, X_query) or np.array_equal(X_query[:n], X_train))
+    same = X_query.shape[0] >= n and (leading_rows_of(X_train, X_query) or np.array_equal(X_query[:n], X_train))
     self_rows = n if same else 0
     idx = query_neighbors(X_train, X_query, k, method=method, random_state=random_state, self_rows=self_rows,
                           owner=owner).indices
     return y_train[idx].mean(axis=1)
-
-
-def _leading_view(A, B) -> bool:
-    """True when A is literally B's first rows (the same memory, so equal without comparing)."""
-    return (A.dtype == B.dtype and A.shape[1:] == B.shape[1:] and A.strides == B.strides
-            and A.__array_interface__["data"][0] == B.__array_interface__["data"][0])
 
 
 def _sq_dists(A, B):

@@ -396,18 +396,17 @@ class KNNLearner(Learner):
         return baselines.knn_k(n_fit, data.dimension, data.smoothness, c=float(self.spec.params.get("c", baselines.DEFAULT_KNN_C)))
 
     def run(self, cells, data) -> list:
+        from manireg.geometry.neighbors import QUERY_APPROXIMATE_ABOVE
+
         out = []
         for c in cells:
             t0 = time.perf_counter()
             fit, val = data.cell_rows(c)
             yf, yv = data.y[fit], data.y[val]
             k = self.k_for(len(fit), data)
-            # the fitted, validation and test rows in one array read once; the fitted rows are a view of it
-            # (at 2.5e5 rows a separate copy of each part was another 0.5 GB of the worker's memory)
-            # above the exact search's limit the approximate search works in float32: read the rows so (half
-            # the memory; the float32 rows are the search's own stack, not copied again)
-            from manireg.geometry.neighbors import QUERY_APPROXIMATE_ABOVE
-
+            # the fitted, validation and test rows in one array read once, the fitted rows a view of it (at 2.5e5
+            # rows a separate copy of each part was another 0.5 GB of the worker's memory); above the exact
+            # search's limit in float32, the approximate search's own type (the array becomes its stack)
             dtype = np.float32 if len(fit) > QUERY_APPROXIMATE_ABOVE else np.float64
             Q = data.take(np.concatenate([fit, val, data.test_idx]), dtype=dtype)
             a, b = len(fit), len(fit) + len(val)
@@ -667,20 +666,14 @@ class ConvNetLearner(NetLearner):
 
     def _fit(self, cells, data):
         from manireg.nets.conv import BatchedConvTrainer
-        from manireg.nets.training import ReplicaTask
 
         ns = {c.n for c in cells}
         if len(ns) != 1:
             raise ValueError(f"{type(self).__name__}.run: cells of one call must share n; got sizes {sorted(ns)}.")
         arch = self.architecture(cells[0].n, data)
-        conv = lambda y: y if self._loss == "mse" else y.astype(np.int64)  # noqa: E731
-        tasks = []
-        for c in cells:
-            Xf, yf, Xv, yv = data.cell_split(c)
-            tasks.append(ReplicaTask(Xf, conv(yf), Xv, conv(yv), seed=int(c.seed)))
         trainer = BatchedConvTrainer(arch, self._train_config(), loss=self._loss,
                                      mode=str(self.spec.params.get("mode", "auto")))
-        return arch, trainer, trainer.fit(tasks)
+        return arch, trainer, trainer.fit(_cell_tasks(cells, data, labels=self._loss != "mse"))
 
     def _extra(self, arch, r):
         return {"steps": int(r.steps), "best_step": int(r.best_step), "stop_reason": str(r.stop_reason),

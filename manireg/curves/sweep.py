@@ -246,9 +246,7 @@ class CampaignData:
 
     def take(self, rows, dtype=np.float64):
         """Rows of X by index, as float64 or ``dtype`` (read from the file when X is on disk)."""
-        if not self.on_disk:
-            return self.X[rows].astype(dtype, copy=False)
-        return self.X.rows(rows) if np.dtype(dtype) == np.float64 else self.X.rows(rows, dtype=dtype)
+        return self.X.rows(rows, dtype=dtype) if self.on_disk else self.X[rows].astype(dtype, copy=False)
 
     def __getstate__(self):
         state = dict(self.__dict__)

@@ -413,6 +413,13 @@ class QueryNeighbors(ResultMixin):
     _skip_in_dict = ("indices",)
 
 
+def leading_rows_of(A, B) -> bool:
+    """True when the array A is literally B's first rows: the same memory, type and row layout (so equal
+    without comparing a value)."""
+    return (A.dtype == B.dtype and A.shape[1:] == B.shape[1:] and A.strides == B.strides
+            and A.__array_interface__["data"][0] == B.__array_interface__["data"][0])
+
+
 #: Queries per block when the approximate search reads its answers from the graph.
 _GRAPH_BLOCK = 8192
 #: Trees and candidates per row of the kNN baselines' neighbour-descent graph (see query_neighbors).
@@ -467,8 +474,8 @@ def query_neighbors(reference, queries, k: int, *, method: str = "auto", random_
     extra = queries[self_rows:]
     share = n / (n + extra.shape[0])
     width = int(min(n + extra.shape[0] - 1, np.ceil((k + 3 * np.sqrt(k) + 2) / share)))
-    if self_rows == n and queries.dtype == np.float32 and queries.flags.c_contiguous and \
-            reference.__array_interface__["data"][0] == queries.__array_interface__["data"][0]:
+    if (self_rows == n and queries.dtype == np.float32 and queries.flags.c_contiguous
+            and leading_rows_of(reference, queries)):
         U = queries  # float32 queries that begin with the reference rows themselves: already the stack
     else:
         U = np.empty((n + extra.shape[0], reference.shape[1]), dtype=np.float32)  # cast in place: no float64 stack

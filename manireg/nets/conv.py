@@ -47,7 +47,7 @@ from manireg._validation import DataValidationError, check_choice, check_int, ch
 from manireg.nets.builders import ResidualConvNetwork, build_conv_network
 from manireg.nets.losses import probabilities, row_loss, stopping_loss
 from manireg.nets.training import (ReplicaResult, ReplicaTask, TrainConfig, _check_task_target, lr_at_step,
-                                   stop_reasons)
+                                   stop_reasons, track_best)
 from manireg.theory.sizing import ConvArchitectureSpec
 
 __all__ = ["BatchedConvTrainer", "conv_forward", "check_image_shape", "CONV_LOSSES", "CONV_MODES", "GROUPED_MAX_MACS"]
@@ -478,11 +478,8 @@ flops (torch's setting above).
         step = 0
         while True:
             if step % cfg.eval_every == 0 or step == cfg.max_steps:
-                v = val_loss()
-                improved = v < g.best_val * (1.0 - cfg.tol)
-                if bool(improved.any()):
-                    g.best_val = torch.where(improved, v, g.best_val)
-                    g.best_step = torch.where(improved, torch.full_like(g.best_step, step), g.best_step)
+                improved, g.best_val, g.best_step = track_best(cfg, val_loss(), g.best_val, g.best_step, step)
+                if improved is not None:
                     for bp, p in zip(g.best, g.params):
                         bp.copy_(torch.where(improved.view(-1, *([1] * (p.ndim - 1))), p.detach(), bp))
                 reasons = stop_reasons(cfg, step, time.perf_counter() - t0, g.best_step, len(g.active))

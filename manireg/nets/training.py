@@ -194,6 +194,17 @@ def stop_reasons(config: TrainConfig, step: int, elapsed: float, best_step, n_ac
     return [None] * n_active
 
 
+def track_best(config: TrainConfig, v, best_val, best_step, step: int):
+    """The validation losses ``v`` against the best so far: a value counts as better only below
+    ``(1 - config.tol) * best``. Returns ``(improved, best_val, best_step)`` with the bests updated;
+    ``improved`` (a bool tensor) is None when no replica improved. One rule for every batched trainer."""
+    improved = v < best_val * (1.0 - config.tol)
+    if not bool(improved.any()):
+        return None, best_val, best_step
+    return (improved, torch.where(improved, v, best_val),
+            torch.where(improved, torch.full_like(best_step, step), best_step))
+
+
 def lr_at_step(config: TrainConfig, step: int) -> float:
     """Learning rate of ``config``'s schedule at optimiser step ``step`` (0-based)."""
     lr = config.learning_rate
@@ -1105,11 +1116,8 @@ class BatchedTrainer:
         while True:
             # ---- evaluation, early stopping, caps
             if step % cfg.eval_every == 0 or step == cfg.max_steps:
-                v = val_mse()
-                improved = v < st.best_val * (1.0 - cfg.tol)
-                if bool(improved.any()):
-                    st.best_val = torch.where(improved, v, st.best_val)
-                    st.best_step = torch.where(improved, torch.full_like(st.best_step, step), st.best_step)
+                improved, st.best_val, st.best_step = track_best(cfg, val_mse(), st.best_val, st.best_step, step)
+                if improved is not None:
                     st.best.copy_(torch.where(improved[:, None], st.flat, st.best))
                 reasons = stop_reasons(cfg, step, time.perf_counter() - t0, st.best_step, len(st.active), min_steps)
                 if any(reasons):
